@@ -1,0 +1,1 @@
+"""Check families: one module each, every one a pure function of the audit context."""

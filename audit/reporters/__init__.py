@@ -1,0 +1,1 @@
+"""Reporters: each turns an AuditResult into text.  They only format."""
