@@ -1,0 +1,350 @@
+"""The command line: the only place that reads argv, prints or exits.
+
+Commands
+--------
+``truss-audit check MODEL [RESULTS] ...``   audit reported results (exit 0 pass, 1 fail)
+``truss-audit solve MODEL -o RESULTS``      solve every case and write a results file
+``truss-audit rules``                       list every finding code from the registry
+
+Exit codes (documented in the README):
+
+====  ==========================================================
+0     pass (``check``) or written (``solve``)
+1     the audit failed: a finding at or above ``--fail-on``
+2     bad input or usage; nothing was written
+3     a check crashed (reported under its own name); audit failed
+4     ``solve`` only: the model cannot be solved (mechanism or singular)
+====  ==========================================================
+"""
+
+from __future__ import annotations
+
+import argparse
+import hashlib
+import json
+import re
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+from typing import TextIO
+
+from audit import __version__
+from audit.errors import InputError, Problem, UnsolvableError
+from audit.findings import AuditResult, Severity
+
+EXIT_PASS = 0
+EXIT_FAIL = 1
+EXIT_INPUT = 2
+EXIT_CRASH = 3
+EXIT_UNSOLVABLE = 4
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that raises instead of exiting, so usage errors become exit code 2 with our message."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        raise _UsageError(f"{self.prog}: {message}")
+
+
+class _UsageError(Exception):
+    pass
+
+
+def _parser() -> _Parser:
+    p = _Parser(prog="truss-audit", description="Independent verification of truss analyses.")
+    p.add_argument("--version", action="version", version=f"truss-audit {__version__}")
+    sub = p.add_subparsers(dest="command", parser_class=_Parser)
+
+    c = sub.add_parser("check", help="audit the results reported for one or more models")
+    c.add_argument(
+        "inputs", nargs="+", metavar="FILE", help="model files (a results file may follow its model), or folders"
+    )
+    c.add_argument("--results", metavar="PATH", help="results file for a single model (instead of a second positional)")
+    c.add_argument("--json", metavar="PATH", help="write the report as JSON")
+    c.add_argument("--junit", metavar="PATH", help="write JUnit XML (one test case per check and case)")
+    c.add_argument("--markdown", metavar="PATH", help="write a Markdown report for a review record")
+    c.add_argument("--html", metavar="PATH", help="write a self-contained HTML report with drawings")
+    c.add_argument("--plot", metavar="DIR", help="write the drawings as SVG and PNG files into DIR")
+    c.add_argument(
+        "--deformed-case", metavar="CASE", help="load case or combination drawn deformed (default: the first)"
+    )
+    c.add_argument(
+        "--fail-on", choices=["error", "warning"], default="error", help="lowest severity that fails the audit"
+    )
+    c.add_argument("--policy", metavar="PATH", help="JSON tolerance policy file")
+    c.add_argument("--tol", action="append", default=[], metavar="NAME=VALUE", help="override one tolerance")
+    c.add_argument(
+        "--select", action="append", default=[], metavar="CODE", help="keep only findings with these code prefixes"
+    )
+    c.add_argument(
+        "--ignore", action="append", default=[], metavar="CODE", help="drop findings with these code prefixes"
+    )
+    c.add_argument("--digits", type=int, default=30, help="significant digits of the high-precision recomputation")
+    c.add_argument("--solver", default="auto", help="sparse solver backend: auto, pardiso or splu")
+    c.add_argument("--jobs", type=int, default=1, help="models audited in parallel (processes)")
+    c.add_argument("--quiet", action="store_true", help="print only the verdict line; no progress display")
+    c.add_argument("--colour", action="store_true", help="colour the terminal report")
+
+    s = sub.add_parser("solve", help="solve every load case and combination and write a results file")
+    s.add_argument("model", metavar="MODEL")
+    s.add_argument("-o", "--output", required=True, metavar="RESULTS", help="results file to write")
+    s.add_argument("--digits", type=int, default=None, help="write N significant digits from the high-precision path")
+    s.add_argument("--solver", default="auto", help="sparse solver backend: auto, pardiso or splu")
+
+    sub.add_parser("rules", help="list every finding code with its severity and summary")
+    return p
+
+
+def _sha256(path: str) -> str:
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+_FORMAT_KEY = re.compile(rb'"format"\s*:\s*"([^"]{1,40})"')
+
+
+def _sniff_format(path: str) -> str | None:
+    """The document's ``format`` value, read cheaply from the head of the file (None if not found)."""
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(1 << 16)
+    except OSError:
+        return None  # the reader reports the problem properly
+    m = _FORMAT_KEY.search(head)
+    if m:
+        return m.group(1).decode("utf-8", "replace")
+    try:
+        with open(path, "rb") as fh:
+            doc = json.loads(fh.read().decode("utf-8-sig"))
+    except (OSError, ValueError, RecursionError):
+        return None
+    return doc.get("format") if isinstance(doc, dict) and isinstance(doc.get("format"), str) else None
+
+
+def _expand_inputs(items: Sequence[str]) -> list[tuple[str, str | None]]:
+    """Pair model files with the results file that follows them; expand folders."""
+    paths: list[str] = []
+    for item in items:
+        p = Path(item)
+        if p.is_dir():
+            paths.extend(str(q) for q in sorted(p.glob("*.json")))
+        else:
+            paths.append(item)
+    pairs: list[tuple[str, str | None]] = []
+    for path in paths:
+        kind = _sniff_format(path)
+        if kind == "truss-audit-results":
+            if pairs and pairs[-1][1] is None:
+                pairs[-1] = (pairs[-1][0], path)
+                continue
+            if Path(path).parent.is_dir() and any(Path(path).name.endswith(s) for s in (".results.json",)):
+                continue  # a results file in a folder pairs with its model by name below
+            raise InputError("", (Problem("$", f"{path} is a results file with no model before it"),))
+        pairs.append((path, None))
+    # folder convention: NAME.json pairs with NAME.results.json beside it
+    out = []
+    for model_path, res in pairs:
+        if res is None:
+            cand = Path(model_path).with_suffix("").as_posix() + ".results.json"
+            if Path(cand).is_file() and cand not in (m for m, _ in pairs):
+                res = cand
+        out.append((model_path, res))
+    return out
+
+
+def _write_outputs(args: argparse.Namespace, result: AuditResult, model: object, ctx_extra: dict[str, object]) -> None:
+    from audit.fileio import atomic_write_bytes, atomic_write_text
+    from audit.reporters import html, json_report, junit, markdown
+
+    if args.json:
+        atomic_write_text(args.json, json_report.render(result, model))
+    if args.junit:
+        atomic_write_text(args.junit, junit.render(result, model))
+    if args.markdown:
+        atomic_write_text(args.markdown, markdown.render(result, model))
+    if args.html:
+        atomic_write_text(args.html, html.render(result, model, ctx_extra))
+    if args.plot:
+        from audit.reporters import plots
+
+        Path(args.plot).mkdir(parents=True, exist_ok=True)
+        for name, data in plots.render_files(result, model, ctx_extra).items():
+            target = str(Path(args.plot) / name)
+            if isinstance(data, bytes):
+                atomic_write_bytes(target, data)
+            else:
+                atomic_write_text(target, data)
+
+
+def _tolerances(args: argparse.Namespace):  # type: ignore[no-untyped-def]
+    from audit.tolerances import Tolerances
+
+    tol = Tolerances.from_policy(args.policy) if args.policy else Tolerances()
+    overrides: dict[str, float] = {}
+    for item in args.tol:
+        name, sep, value = item.partition("=")
+        if not sep:
+            raise _UsageError(f"--tol expects NAME=VALUE, got {item!r}")
+        try:
+            overrides[name.strip()] = float(value)
+        except ValueError:
+            raise _UsageError(f"--tol {name}: {value!r} is not a number") from None
+    return tol.override(**overrides) if overrides else tol
+
+
+def _check_one(args: argparse.Namespace, model_path: str, results_path: str | None, out: TextIO, err: TextIO) -> int:
+    from audit import engine, exchange
+    from audit.fileio import refuse_same_path
+    from audit.progress import Progress
+    from audit.reporters import text
+
+    outputs = [p for p in (args.json, args.junit, args.markdown, args.html) if p]
+    inputs = [model_path] + ([results_path] if results_path else [])
+    refuse_same_path(outputs, inputs)
+    model = exchange.load_model(model_path)
+    results = exchange.load_results(results_path, model) if results_path else None
+    tol = _tolerances(args)
+    progress = Progress(err, enabled=not args.quiet)
+    try:
+        result, ctx = engine.audit_with_context(
+            model,
+            results,
+            tolerances=tol,
+            fail_on=Severity.parse(args.fail_on),
+            select=tuple(args.select),
+            ignore=tuple(args.ignore),
+            digits=args.digits,
+            backend=args.solver,
+            inputs=tuple((Path(p).name, _sha256(p)) for p in inputs),
+            progress=progress.step,
+        )
+    finally:
+        progress.close()
+    ctx_extra = engine.drawing_context(ctx, args.deformed_case)
+    if args.quiet:
+        out.write(f"{model_path}: {result.verdict}\n")
+    else:
+        out.write(text.render(result, model, {"colour": args.colour}))
+    _write_outputs(args, result, model, ctx_extra)
+    if result.crashed:
+        return EXIT_CRASH
+    return EXIT_FAIL if result.verdict == "fail" else EXIT_PASS
+
+
+def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    if args.digits < 16 or args.digits > 200:
+        raise _UsageError("--digits must be between 16 and 200")
+    pairs = _expand_inputs(args.inputs)
+    if args.results:
+        if len(pairs) != 1:
+            raise _UsageError("--results goes with exactly one model")
+        pairs = [(pairs[0][0], args.results)]
+    if not pairs:
+        raise _UsageError("no model files found")
+    if len(pairs) == 1:
+        return _check_one(args, pairs[0][0], pairs[0][1], out, err)
+    from audit import batch
+
+    if args.html or args.plot or args.markdown:
+        raise _UsageError("--html, --plot and --markdown take a single model; use --json or --junit for a batch")
+    result = batch.run_batch(
+        pairs,
+        jobs=max(1, args.jobs),
+        audit_kwargs={
+            "fail_on": args.fail_on,
+            "select": tuple(args.select),
+            "ignore": tuple(args.ignore),
+            "digits": args.digits,
+            "backend": args.solver,
+            "policy": args.policy,
+            "tol": tuple(args.tol),
+        },
+    )
+    from audit.fileio import atomic_write_text
+
+    out.write(batch.render_summary(result))
+    if args.json:
+        atomic_write_text(args.json, batch.render_batch_json(result))
+    if args.junit:
+        atomic_write_text(args.junit, batch.render_batch_junit(result))
+    return batch.exit_code(result)
+
+
+def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    from audit import exchange
+    from audit.fileio import atomic_write_text, refuse_same_path
+
+    refuse_same_path([args.output], [args.model])
+    model = exchange.load_model(args.model)
+    if args.digits is not None:
+        if args.digits < 1 or args.digits > 200:
+            raise _UsageError("--digits must be between 1 and 200")
+        from audit import precision
+
+        cases, _report = precision.solve_high_precision(model, args.digits)
+        text = exchange.dump_results(
+            model, cases, source=f"truss-audit {__version__} solve --digits {args.digits}", digits=args.digits
+        )
+    else:
+        from audit.solve import solve_model
+
+        solution = solve_model(model, args.solver)
+        text = exchange.dump_results(
+            model, solution.cases, source=f"truss-audit {__version__} solve ({solution.backend})"
+        )
+    atomic_write_text(args.output, text)
+    out.write(f"wrote {args.output}: {len(model.load_cases)} load cases, {len(model.combinations)} combinations\n")
+    return EXIT_PASS
+
+
+def _rules(out: TextIO) -> int:
+    from tabulate import tabulate
+
+    from audit.engine import registry
+
+    rows = [(r.code, r.severity.label, r.family, r.summary) for r in registry().values()]
+    out.write(tabulate(rows, headers=["code", "severity", "check", "summary"], tablefmt="simple") + "\n")
+    return EXIT_PASS
+
+
+def main(argv: Sequence[str] | None = None, out: TextIO | None = None, err: TextIO | None = None) -> int:
+    """Run the command line; returns the exit code (never raises for bad input)."""
+    out = out or sys.stdout
+    err = err or sys.stderr
+    try:
+        args = _parser().parse_args(list(sys.argv[1:] if argv is None else argv))
+        if args.command == "check":
+            return _check(args, out, err)
+        if args.command == "solve":
+            return _solve(args, out, err)
+        if args.command == "rules":
+            return _rules(out)
+        _parser().print_help(out)
+        return EXIT_INPUT
+    except _UsageError as exc:
+        err.write(f"{exc}\n")
+        return EXIT_INPUT
+    except InputError as exc:
+        err.write(f"{exc}\n")
+        return EXIT_INPUT
+    except UnsolvableError as exc:
+        err.write(f"truss-audit: the model cannot be solved: {exc.message}\n")
+        for d in exc.details:
+            err.write(f"  {d}\n")
+        return EXIT_UNSOLVABLE
+    except KeyboardInterrupt:
+        err.write("truss-audit: interrupted; no output file was left half-written\n")
+        return 130
+    except OSError as exc:
+        err.write(f"truss-audit: {exc.filename or ''}: {exc.strerror or exc}\n")
+        return EXIT_INPUT
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
+
+
+__all__ = ["main"]

@@ -1,0 +1,46 @@
+"""The registry of finding codes.
+
+Every code a check may raise is declared by its check module in a ``RULES``
+tuple; this module collects them from the explicit list of check modules in
+:mod:`audit.engine` and validates them (unique, well formed).  ``truss-audit
+rules`` prints the list generated from here; nothing is kept by hand.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from audit.findings import Severity
+
+CODE_PATTERN = re.compile(r"^[A-Z]{2}\d{3}$")
+
+
+@dataclass(frozen=True)
+class Rule:
+    code: str  #: two capital letters (the family) and three digits, e.g. "EQ101"
+    severity: Severity  #: default severity of a finding with this code
+    summary: str  #: one line, shown by ``truss-audit rules``
+    family: str  #: the check module that raises it
+
+
+#: codes owned by the engine itself
+ENGINE_RULES = (
+    Rule("AU901", Severity.ERROR, "a check crashed; its result is unknown and the audit fails", "engine"),
+    Rule("AU902", Severity.ERROR, "the model could not be solved, so no recomputation was possible", "engine"),
+)
+
+
+def collect(rule_sets: tuple[tuple[Rule, ...], ...]) -> dict[str, Rule]:
+    """Merge rule tuples into one registry keyed by code; reject duplicates and malformed codes."""
+    registry: dict[str, Rule] = {}
+    for rules in rule_sets:
+        for rule in rules:
+            if not CODE_PATTERN.match(rule.code):
+                raise ValueError(f"malformed finding code {rule.code!r} in {rule.family}")
+            if rule.code in registry:
+                raise ValueError(
+                    f"finding code {rule.code} declared twice ({registry[rule.code].family}, {rule.family})"
+                )
+            registry[rule.code] = rule
+    return dict(sorted(registry.items()))
