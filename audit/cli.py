@@ -341,6 +341,13 @@ def main(argv: Sequence[str] | None = None, out: TextIO | None = None, err: Text
     except OSError as exc:
         err.write(f"truss-audit: {exc.filename or ''}: {exc.strerror or exc}\n")
         return EXIT_INPUT
+    except Exception as exc:  # an internal fault: say so plainly, never pass, never dump a traceback
+        import traceback
+
+        last = traceback.extract_tb(exc.__traceback__)[-1]
+        where = f"{last.filename.rsplit('/', 1)[-1]}:{last.lineno}"
+        err.write(f"truss-audit: internal error ({type(exc).__name__}: {exc}) at {where}; nothing was passed\n")
+        return EXIT_CRASH
 
 
 if __name__ == "__main__":  # pragma: no cover
