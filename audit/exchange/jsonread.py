@@ -1,0 +1,116 @@
+"""Stage 1 of reading: bytes or text -> a JSON tree that keeps every number's decimal text.
+
+UTF-8 (a byte-order mark is accepted), no duplicate keys, no
+``NaN``/``Infinity``, nesting no deeper than :data:`audit.exchange.MAX_DEPTH`,
+input no larger than :data:`audit.exchange.MAX_BYTES` (both read from the
+package at call time, so that a change there takes effect).
+
+Every number keeps its decimal text as written: integers as Python ``int``
+(whose decimal form is the written text; the one exception is ``-0``, kept as
+``0``), other numbers as the written ``bytes`` (``parse_float=str.encode``, a
+C-level hook: a Python class per number would make reading four times slower)
+until they are converted.  An integer may not have more than 4300 digits
+(Python's own guard).  Keys starting with ``x-`` are kept and otherwise
+ignored: ``NaN``/``Infinity`` and nesting are checked inside them, but their
+numbers are not converted, so an overflow there is not an error.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass
+from typing import Any
+
+from .. import exchange as _limits  # the package: MAX_* are read from it at call time
+from .problems import Path_, _fail, _Problems
+from .values import _JSON_CONSTANTS
+
+
+@dataclass
+class _Json:
+    doc: Any
+    duplicates: list[tuple[dict[str, Any], list[str]]]
+    constants: int
+
+
+def _read_json(data: bytes | bytearray | memoryview | str, name: str) -> _Json:
+    """Parse JSON text keeping every number's decimal text; syntax errors raise at once."""
+    max_bytes = _limits.MAX_BYTES
+    if isinstance(data, str):
+        if len(data) > max_bytes:
+            raise _fail(name, "$", f"input is too large: more than {max_bytes} characters")
+        text = data[1:] if data.startswith("\ufeff") else data
+    else:
+        raw = bytes(data)
+        if len(raw) > max_bytes:
+            raise _fail(name, "$", f"input is too large: {len(raw)} bytes, the limit is {max_bytes} bytes")
+        if raw.startswith(b"\xef\xbb\xbf"):
+            raw = raw[3:]
+        try:
+            text = raw.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            line = raw.count(b"\n", 0, exc.start) + 1
+            column = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
+            raise _fail(name, f"line {line}, column {column}", "the file is not UTF-8 text") from None
+
+    duplicates: list[tuple[dict[str, Any], list[str]]] = []
+    constants = [0]
+
+    def pairs_hook(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+        d = dict(pairs)
+        if len(d) != len(pairs):
+            seen: set[str] = set()
+            dup = [k for k, _ in pairs if k in seen or seen.add(k)]  # type: ignore[func-returns-value]
+            duplicates.append((d, dup))
+        return d
+
+    def constant_hook(word: str) -> bytes:
+        constants[0] += 1
+        return word.encode("ascii")
+
+    try:
+        doc = json.loads(text, parse_float=str.encode, parse_constant=constant_hook, object_pairs_hook=pairs_hook)
+    except json.JSONDecodeError as exc:
+        raise _fail(name, f"line {exc.lineno}, column {exc.colno}", f"invalid JSON: {exc.msg}") from None
+    except RecursionError:
+        raise _fail(
+            name, "$", f"arrays and objects are nested too deeply (the limit is {_limits.MAX_DEPTH} levels)"
+        ) from None
+    except ValueError as exc:  # an integer with more digits than Python converts
+        raise _fail(name, "$", f"a number has too many digits: {exc}") from None
+    return _Json(doc, duplicates, constants[0])
+
+
+def _walk(root: Any, base: Path_ = ()) -> Iterator[tuple[Path_, Any]]:
+    """Every value under ``root`` with its path, without recursion, stopping below :data:`~audit.exchange.MAX_DEPTH`."""
+    max_depth = _limits.MAX_DEPTH
+    stack: list[tuple[Path_, Any]] = [(base, root)]
+    while stack:
+        path, value = stack.pop()
+        yield path, value
+        if len(path) >= max_depth:
+            continue
+        if isinstance(value, dict):
+            stack.extend(((*path, k), v) for k, v in reversed(value.items()))
+        elif isinstance(value, list):
+            stack.extend(((*path, i), v) for i, v in reversed(list(enumerate(value))))
+
+
+def _json_problems(parsed: _Json, roots: Iterable[tuple[Path_, Any]], probs: _Problems) -> None:
+    """Duplicate keys, NaN/Infinity, nesting deeper than the limit."""
+    if parsed.duplicates or parsed.constants:
+        dup_of = {id(d): keys for d, keys in parsed.duplicates}
+        for path, value in _walk(parsed.doc):
+            if isinstance(value, dict) and id(value) in dup_of:
+                for k in dict.fromkeys(dup_of[id(value)]):
+                    probs.add((*path, k), f"duplicate key {k!r} in one object")
+            elif type(value) is bytes and value.decode("ascii") in _JSON_CONSTANTS:
+                probs.add(path, f"{value.decode('ascii')} is not a JSON number; numbers must be finite")
+    max_depth = _limits.MAX_DEPTH
+    for base, root in roots:
+        for path, value in _walk(root, base):
+            if len(path) >= max_depth and isinstance(value, (dict, list)):
+                probs.add(
+                    path, f"arrays and objects are nested too deeply (the limit is {max_depth} levels)", blocking=True
+                )
