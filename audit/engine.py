@@ -75,7 +75,7 @@ def build_context(
     except UnsolvableError as exc:
         reason = exc.message
     say("checking stability and determinacy")
-    stab = stability.analyse(model, system, factor)
+    stab = stability.analyse(model, system, factor, condition=cond)
     solution = None
     if factor is not None and stab.stable:
         say("recomputing displacements, forces and reactions")
