@@ -38,6 +38,9 @@ EXIT_INPUT = 2
 EXIT_CRASH = 3
 EXIT_UNSOLVABLE = 4
 
+#: solver names accepted by --solver (audit.linsolve.BACKENDS, kept here so argv parsing imports no numerics)
+_SOLVERS = ("auto", "pardiso", "cholmod", "splu")
+
 
 class _Parser(argparse.ArgumentParser):
     """argparse that raises instead of exiting, so usage errors become exit code 2 with our message."""
@@ -80,7 +83,7 @@ def _parser() -> _Parser:
         "--ignore", action="append", default=[], metavar="CODE", help="drop findings with these code prefixes"
     )
     c.add_argument("--digits", type=int, default=30, help="significant digits of the high-precision recomputation")
-    c.add_argument("--solver", default="auto", help="sparse solver backend: auto, pardiso or splu")
+    c.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
     c.add_argument("--jobs", type=int, default=1, help="models audited in parallel (processes)")
     c.add_argument("--quiet", action="store_true", help="print only the verdict line; no progress display")
     c.add_argument("--colour", action="store_true", help="colour the terminal report")
@@ -89,7 +92,7 @@ def _parser() -> _Parser:
     s.add_argument("model", metavar="MODEL")
     s.add_argument("-o", "--output", required=True, metavar="RESULTS", help="results file to write")
     s.add_argument("--digits", type=int, default=None, help="write N significant digits from the high-precision path")
-    s.add_argument("--solver", default="auto", help="sparse solver backend: auto, pardiso or splu")
+    s.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
 
     sub.add_parser("rules", help="list every finding code with its severity and summary")
     return p
@@ -142,7 +145,7 @@ def _expand_inputs(items: Sequence[str]) -> list[tuple[str, str | None]]:
                 continue
             if Path(path).parent.is_dir() and any(Path(path).name.endswith(s) for s in (".results.json",)):
                 continue  # a results file in a folder pairs with its model by name below
-            raise InputError("", (Problem("$", f"{path} is a results file with no model before it"),))
+            raise InputError((Problem("$", "this is a results file with no model file before it"),), path)
         pairs.append((path, None))
     # folder convention: NAME.json pairs with NAME.results.json beside it
     out = []

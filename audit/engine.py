@@ -188,6 +188,8 @@ def audit_with_context(
 ) -> tuple[AuditResult, Context]:
     """Audit ``model`` against ``results``; also return the context the checks read."""
     ctx = build_context(model, results, tolerances=tolerances, digits=digits, backend=backend, progress=progress)
+    if progress is not None:
+        progress("running the checks")
     outcomes, crashed = run_checks(ctx)
     if ctx.solution is None:
         outcomes = (

@@ -10,18 +10,25 @@ automatically in this order unless asked for by name:
   the MKL entry point directly, so that each solve costs only the forward and
   backward substitution (pypardiso's own ``solve`` re-checks, copies and
   re-indexes the matrix on every call);
+* ``cholmod``: SuiteSparse CHOLMOD (supernodal Cholesky) as bundled in the
+  wheels of the optional package cvxopt (``cvxopt.cholmod``): no system
+  libraries, wheels for x86-64 and ARM, 60 MB instead of MKL's 1 GB;
 * ``splu``: scipy's SuperLU with the minimum-degree ordering of Aᵀ + A, no
   off-diagonal pivoting and symmetric mode, which keeps the symmetric
   structure of K (always available, pure scipy).
 
-Measured on 2 cores (``benchmarks/``): PARDISO is 3-35x faster than SuperLU
-from 10⁴ members on and the only one of the two that reaches 3D lattices of
-10⁶ members.  Both are direct: no iterative solver is offered, because a
-stiffness contrast of 10⁸ between members defeats the usual preconditioners
-and an unconverged answer would then be passed off as a recomputation.
+Measured on 2 cores (``benchmarks/bench_solvers.py``): on a 3D lattice of
+10⁵ members PARDISO factorises about 2x faster than CHOLMOD and 12-20x
+faster than SuperLU; on small and 2D models the three are within a factor
+of two of each other.  All three are direct: no iterative solver is
+offered, because a stiffness contrast of 10⁸ between members stops the
+usual preconditioned CG from converging (smoothed-aggregation AMG: no
+convergence in 2,000 iterations with 5 % of the members 10⁸ times stiffer,
+measured on this class of machine), and an unconverged answer would then
+be passed off as a recomputation.
 
-A symmetric matrix is assumed; only its upper triangle is read by
-``pardiso``.  A matrix that is not positive definite raises
+A symmetric matrix is assumed; ``pardiso`` reads only its upper triangle,
+``cholmod`` only its lower one.  A matrix that is not positive definite raises
 :class:`numpy.linalg.LinAlgError` when the backend detects it.  Rounding can
 hide a singular matrix (a zero pivot becomes a tiny positive one), so a
 caller must still estimate the condition (``audit.solve.condition_estimate``).
@@ -34,6 +41,9 @@ from __future__ import annotations
 import contextlib
 import ctypes
 import functools
+import glob
+import os
+import sys
 import weakref
 from dataclasses import dataclass
 from typing import Any, Protocol
@@ -45,7 +55,7 @@ import scipy.sparse.linalg as spla
 from audit.model import FloatArray
 
 #: the backends, most preferred first
-BACKENDS = ("pardiso", "splu")
+BACKENDS = ("pardiso", "cholmod", "splu")
 
 #: PARDISO's error codes (Intel oneMKL Developer Reference, "pardiso", table of error values)
 _PARDISO_ERRORS = {
@@ -204,20 +214,37 @@ class _PardisoHandle:
 
 @functools.cache
 def _pardiso_entry() -> Any:
-    """MKL's ``pardiso`` as a ctypes function, located once per process by pypardiso.
+    """MKL's ``pardiso`` as a ctypes function, located once per process.
 
-    Locating the library (``ctypes.util.find_library``, which runs
-    subprocesses) costs about 0.2 s, so it must not happen per factor.
+    pypardiso looks for ``mkl_rt`` with ``ctypes.util.find_library`` and then
+    by a recursive search of the whole environment, twice (once at import);
+    0.45 s in all.  The MKL wheel puts the library in ``<prefix>/lib``, so
+    look there first and hand pypardiso the path through its
+    ``PYPARDISO_MKL_RT`` variable (restored afterwards).
     """
-    import pypardiso
+    found = sorted(glob.glob(f"{sys.prefix}/lib/libmkl_rt.so*") + glob.glob(f"{sys.prefix}/Library/bin/mkl_rt*.dll"))
+    saved = os.environ.get("PYPARDISO_MKL_RT")
+    if saved is None and found:
+        os.environ["PYPARDISO_MKL_RT"] = min(found, key=len)
+    try:
+        import pypardiso  # builds a solver at import, so the path must be set before
 
-    return pypardiso.PyPardisoSolver(mtype=2)._mkl_pardiso
+        return pypardiso.PyPardisoSolver(mtype=2)._mkl_pardiso
+    finally:
+        if saved is None:
+            os.environ.pop("PYPARDISO_MKL_RT", None)
 
 
 def _release(handle: _PardisoHandle) -> None:
     """Free PARDISO's internal memory of one factor (phase -1)."""
     with contextlib.suppress(Exception):  # releasing must never raise, e.g. at interpreter exit
         handle.call(-1)
+
+
+#: from this many right-hand sides on, PARDISO solves them as one block.  Below it, column by
+#: column is faster: 2D grid of 10⁶ members, 2 cores, one column 0.18 s, a block of 2 columns
+#: 0.84 s, of 4 1.24 s, of 8 1.28 s (benchmarks/, MKL 2026.2)
+_BLOCK_RHS = 8
 
 
 class PardisoFactor:
@@ -256,9 +283,51 @@ class PardisoFactor:
         _check_rhs(b, self.n)
         if b.size == 0:
             return np.zeros(b.shape)
-        x = self._h.call(33, np.asfortranarray(b.reshape(self.n, -1)))
+        B = b.reshape(self.n, -1)
+        if B.shape[1] < _BLOCK_RHS:
+            # one column at a time: measured faster than PARDISO's block solve for few columns
+            X = np.empty(B.shape)
+            for j in range(B.shape[1]):
+                x = self._h.call(33, np.asfortranarray(B[:, j : j + 1]))
+                assert x is not None
+                X[:, j] = x[:, 0]
+            return X.reshape(b.shape)
+        x = self._h.call(33, np.asfortranarray(B))
         assert x is not None
         return np.ascontiguousarray(x).reshape(b.shape)
+
+
+# ------------------------------------------------------------------ cholmod
+class CholmodFactor:
+    """CHOLMOD factor (cvxopt's bundled SuiteSparse) of an SPD matrix; reads the lower triangle."""
+
+    backend = "cholmod"
+    note = ""
+
+    def __init__(self, K: sp.csr_matrix) -> None:
+        import cvxopt
+        import cvxopt.cholmod
+
+        self.n = int(K.shape[0])
+        self._cvxopt = cvxopt
+        self._cholmod = cvxopt.cholmod
+        L = sp.tril(K, format="coo")
+        A = cvxopt.spmatrix(L.data, L.row.astype(np.int64), L.col.astype(np.int64), size=K.shape)
+        cvxopt.cholmod.options["supernodal"] = 2  # always supernodal
+        try:
+            self._F = cvxopt.cholmod.symbolic(A)
+            cvxopt.cholmod.numeric(A, self._F)
+        except ArithmeticError as exc:  # CHOLMOD's "not positive definite"
+            raise np.linalg.LinAlgError(f"CHOLMOD: the matrix is not positive definite ({exc})") from None
+
+    def solve(self, b: FloatArray) -> FloatArray:
+        b = np.asarray(b, dtype=np.float64)
+        _check_rhs(b, self.n)
+        if b.size == 0:
+            return np.zeros(b.shape)
+        x = self._cvxopt.matrix(np.asfortranarray(b.reshape(self.n, -1)))
+        self._cholmod.solve(self._F, x)
+        return np.array(x).reshape(b.shape)
 
 
 # ------------------------------------------------------------------- select
@@ -275,6 +344,12 @@ def available_backends() -> tuple[str, ...]:
         names.append("pardiso")
     except Exception:  # depends on the machine: no pypardiso, no MKL, not x86-64
         pass
+    try:
+        import cvxopt.cholmod  # noqa: F401
+
+        names.append("cholmod")
+    except Exception:  # optional package not installed
+        pass
     names.append("splu")
     return tuple(names)
 
@@ -287,9 +362,10 @@ def factorize(K: sp.spmatrix, backend: str = "auto") -> Factor:
     K
         Square sparse matrix, symmetric (``pardiso`` reads the upper triangle only).
     backend
-        ``"auto"`` (the first of :func:`available_backends`), ``"pardiso"`` or ``"splu"``.
-        ``pardiso`` falls back to ``splu`` when the library fails for a reason
-        other than the matrix (the reason is kept in ``Factor.note``).
+        ``"auto"`` (the first of :func:`available_backends`), ``"pardiso"``,
+        ``"cholmod"`` or ``"splu"``.  ``pardiso`` and ``cholmod`` fall back to
+        ``splu`` when the library is missing or fails for a reason other than
+        the matrix (the reason is kept in ``Factor.note``).
 
     Raises
     ------
@@ -308,16 +384,25 @@ def factorize(K: sp.spmatrix, backend: str = "auto") -> Factor:
         K.sort_indices()
     if backend == "auto":
         backend = available_backends()[0]
-    if backend == "pardiso" and K.shape[0] > 0:
+    if backend in ("pardiso", "cholmod") and K.shape[0] > 0:
         try:
-            return PardisoFactor(K)
+            return PardisoFactor(K) if backend == "pardiso" else CholmodFactor(K)
         except (np.linalg.LinAlgError, MemoryError):
             raise
         except Exception as exc:  # library missing or broken: the pure path still works
-            return _splu(K, note=f"pardiso unavailable ({type(exc).__name__}: {exc}); used splu")
+            return _splu(K, note=f"{backend} unavailable ({type(exc).__name__}: {exc}); used splu")
     if K.shape[0] == 0:
         return SpluFactor(lu=None, n=0)
     return _splu(K)
 
 
-__all__ = ["BACKENDS", "Factor", "PardisoError", "PardisoFactor", "SpluFactor", "available_backends", "factorize"]
+__all__ = [
+    "BACKENDS",
+    "CholmodFactor",
+    "Factor",
+    "PardisoError",
+    "PardisoFactor",
+    "SpluFactor",
+    "available_backends",
+    "factorize",
+]
