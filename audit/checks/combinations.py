@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 
 from audit.checks import _common as cm
-from audit.checks.recompute import compare_case
+from audit.checks.recompute import compare_case, quantity_name
 from audit.context import Context
 from audit.findings import CheckOutcome, Finding, Location, Severity
 from audit.model import AXES, CaseResults, FloatArray, Model
@@ -145,7 +145,7 @@ def _check(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
                     difference=float(j.difference[i]),
                     tolerance=float(j.allowed[i]),
                     units=units[kind],
-                    data=cm.judgement_data(j, i),
+                    data=(("quantity", "combination " + quantity_name(kind, loc)), *cm.judgement_data(j, i)),
                 )
             )
     if checked == 0:

@@ -87,7 +87,11 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     out = []
     shown_idx, left = cm.listed(order.tolist())
     for m in shown_idx:
-        data: list[tuple[str, Any]] = [("quantum", float(q[m])), ("model_EA", float(model_ea[m]))]
+        data: list[tuple[str, Any]] = [
+            ("quantity", "force vs elongation"),
+            ("quantum", float(q[m])),
+            ("model_EA", float(model_ea[m])),
+        ]
         tail = ""
         if np.isfinite(ea[m]):
             data += [("implied_EA", float(ea[m])), ("EA_ratio", float(ea[m] / model_ea[m]))]

@@ -152,6 +152,7 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
                 tolerance=al,
                 units=funit,
                 data=(
+                    ("quantity", f"joint residual {cm.axis_name(a)}"),
                     ("residual", [float(x) for x in np.nan_to_num(res[node])]),
                     ("load", [float(x) for x in loads[node]]),
                     ("quantum", q),
@@ -235,7 +236,11 @@ def _global(
                     difference=float(force[a]),
                     tolerance=float(fallowed[a]),
                     units=funit,
-                    data=(("quantum", float(fq[a])), ("sum_of_loads", float(loads[:, a].sum()))),
+                    data=(
+                        ("quantity", f"force sum {cm.axis_name(a)}"),
+                        ("quantum", float(fq[a])),
+                        ("sum_of_loads", float(loads[:, a].sum())),
+                    ),
                 )
             )
     c = model.coords.mean(axis=0)
@@ -283,7 +288,11 @@ def _global(
                     difference=float(m[k]),
                     tolerance=float(mallowed[k]),
                     units=f"{funit}·{lunit}",
-                    data=(("quantum", float(mq[k])), ("moment_point", [float(v) for v in c])),
+                    data=(
+                        ("quantity", f"moment sum about {name}"),
+                        ("quantum", float(mq[k])),
+                        ("moment_point", [float(v) for v in c]),
+                    ),
                 )
             )
     return True

@@ -64,6 +64,11 @@ def compare_case(
     }
 
 
+def quantity_name(kind: str, loc: Location) -> str:
+    """What a finding compares, for the reports: ``"axial force"``, ``"displacement x"``, ``"reaction y"``."""
+    return kind.replace("_", " ") + (f" {loc.axis}" if loc.axis else "")
+
+
 def _location(model: Model, kind: str, i: int) -> Location:
     if kind == "axial_force":
         return Location(member=model.member_ids[i])
@@ -129,7 +134,7 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
                     difference=diff,
                     tolerance=al,
                     units=units[kind],
-                    data=(*cm.judgement_data(j, i), ("reference", ref.label)),
+                    data=(("quantity", quantity_name(kind, loc)), *cm.judgement_data(j, i), ("reference", ref.label)),
                 )
             )
     rows.sort(key=lambda r: -r[0])

@@ -105,7 +105,7 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
                 difference=v,
                 tolerance=float(allowed[i, a]),
                 units=funit,
-                data=(("quantum", float(qR[node, a])),),
+                data=(("quantity", f"reaction {AXES[a]}, no support"), ("quantum", float(qR[node, a]))),
             )
         )
     findings += cm.listed(sp101)[0]
@@ -166,7 +166,12 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
                     difference=comp,
                     tolerance=allowed_c,
                     units=funit,
-                    data=(("direction", [float(v) for v in z]), ("quantum", qc), ("reaction", [float(v) for v in r])),
+                    data=(
+                        ("quantity", "spring reaction" if spring_known else "reaction, free direction"),
+                        ("direction", [float(v) for v in z]),
+                        ("quantum", qc),
+                        ("reaction", [float(v) for v in r]),
+                    ),
                 )
             )
 
@@ -241,7 +246,7 @@ def _restraint_displacements(
                 difference=float(along[i] - settlement[i]),
                 tolerance=float(allowed[i]),
                 units=lunit,
-                data=(("restraint", label), ("quantum", float(q[i]))),
+                data=(("quantity", f"support movement {label}"), ("restraint", label), ("quantum", float(q[i]))),
             )
         )
     return cm.listed(out)[0]

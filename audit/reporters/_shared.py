@@ -170,10 +170,30 @@ def case_label(case: str | None) -> str:
     return case if case is not None else "(model)"
 
 
+#: the family of each code prefix (the prefixes are fixed by the check protocol)
+FAMILIES = {
+    "ST": "stability",
+    "KH": "stiffness health",
+    "EQ": "equilibrium",
+    "SP": "support consistency",
+    "CP": "compatibility",
+    "RC": "recomputation",
+    "CB": "combinations",
+    "HP": "high precision",
+    "DX": "diagnosis",
+    "AU": "engine",
+}
+
+
+def family_of(code: str) -> str:
+    """The family a finding code belongs to, in words (the code itself when its prefix is unknown)."""
+    return FAMILIES.get(code[:2], code)
+
+
 def quantity_of(f: Finding) -> str:
-    """What was compared: the check's ``quantity`` data, else the code; units appended."""
-    q = str(f.data_dict().get("quantity", f.code))
-    return f"{q} [{f.units}]" if f.units else q
+    """What was compared: the check's ``quantity`` data, else the code's family; units appended."""
+    q = f.data_dict().get("quantity") or family_of(f.code)
+    return f"{q} [{f.units}]" if f.units else str(q)
 
 
 def rounding_note(f: Finding) -> str:
