@@ -20,6 +20,7 @@ Exit codes (documented in the README):
 from __future__ import annotations
 
 import argparse
+import contextlib
 import hashlib
 import json
 import re
@@ -128,29 +129,35 @@ def _sniff_format(path: str) -> str | None:
 
 
 def _expand_inputs(items: Sequence[str]) -> list[tuple[str, str | None]]:
-    """Pair model files with the results file that follows them; expand folders."""
-    paths: list[str] = []
+    """Pair model files with the results file that follows them; expand folders.
+
+    In a folder, ``NAME.json`` pairs with ``NAME.results.json`` beside it.  On the
+    command line a results file pairs with the model file just before it.
+    """
+    paths: list[tuple[str, bool]] = []  # (path, came from a folder)
     for item in items:
         p = Path(item)
         if p.is_dir():
-            paths.extend(str(q) for q in sorted(p.glob("*.json")))
+            paths.extend((str(q), True) for q in sorted(p.glob("*.json")))
         else:
-            paths.append(item)
+            paths.append((item, False))
     pairs: list[tuple[str, str | None]] = []
-    for path in paths:
+    folder_models: set[str] = set()
+    for path, from_folder in paths:
         kind = _sniff_format(path)
         if kind == "truss-audit-results":
+            if from_folder and path.endswith(".results.json"):
+                continue  # pairs with its model by name below
             if pairs and pairs[-1][1] is None:
                 pairs[-1] = (pairs[-1][0], path)
                 continue
-            if Path(path).parent.is_dir() and any(Path(path).name.endswith(s) for s in (".results.json",)):
-                continue  # a results file in a folder pairs with its model by name below
-            raise InputError((Problem("$", "this is a results file with no model file before it"),), path)
+            raise InputError((Problem("$", "this is a results file with no model before it"),), path)
         pairs.append((path, None))
-    # folder convention: NAME.json pairs with NAME.results.json beside it
+        if from_folder:
+            folder_models.add(path)
     out = []
     for model_path, res in pairs:
-        if res is None:
+        if res is None and model_path in folder_models:
             cand = Path(model_path).with_suffix("").as_posix() + ".results.json"
             if Path(cand).is_file() and cand not in (m for m, _ in pairs):
                 res = cand
@@ -185,7 +192,12 @@ def _write_outputs(args: argparse.Namespace, result: AuditResult, model: object,
 def _tolerances(args: argparse.Namespace):  # type: ignore[no-untyped-def]
     from audit.tolerances import Tolerances
 
-    tol = Tolerances.from_policy(args.policy) if args.policy else Tolerances()
+    try:
+        tol = Tolerances.from_policy(args.policy) if args.policy else Tolerances()
+    except OSError as exc:
+        raise _UsageError(f"--policy {args.policy}: {exc.strerror or exc}") from None
+    except ValueError as exc:
+        raise _UsageError(f"--policy {args.policy}: {exc}") from None
     overrides: dict[str, float] = {}
     for item in args.tol:
         name, sep, value = item.partition("=")
@@ -195,7 +207,30 @@ def _tolerances(args: argparse.Namespace):  # type: ignore[no-untyped-def]
             overrides[name.strip()] = float(value)
         except ValueError:
             raise _UsageError(f"--tol {name}: {value!r} is not a number") from None
-    return tol.override(**overrides) if overrides else tol
+    try:
+        return tol.override(**overrides) if overrides else tol
+    except (ValueError, TypeError) as exc:
+        raise _UsageError(f"--tol: {exc}") from None
+
+
+def _check_outputs(paths: Sequence[str | None]) -> None:
+    """Refuse, before any work, two reports to one file and a report path that is a folder."""
+    given = [p for p in paths if p]
+    seen: dict[str, str] = {}
+    problems = []
+    for p in given:
+        key = str(Path(p).resolve())
+        if key in seen:
+            raise _UsageError(f"two reports would be written to the same file {p}")
+        seen[key] = p
+        if Path(p).is_dir():
+            problems.append(p)
+        elif not Path(p).resolve().parent.is_dir():
+            raise _UsageError(f"{p}: the folder for this report does not exist")
+    if problems:
+        raise InputError(
+            tuple(Problem("$", "is a folder, not a file a report can be written to") for _ in problems[:1]), problems[0]
+        )
 
 
 def _check_one(args: argparse.Namespace, model_path: str, results_path: str | None, out: TextIO, err: TextIO) -> int:
@@ -206,10 +241,11 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
 
     outputs = [p for p in (args.json, args.junit, args.markdown, args.html) if p]
     inputs = [model_path] + ([results_path] if results_path else [])
+    _check_outputs(outputs)
     refuse_same_path(outputs, inputs)
+    tol = _tolerances(args)
     model = exchange.load_model(model_path)
     results = exchange.load_results(results_path, model) if results_path else None
-    tol = _tolerances(args)
     progress = Progress(err, enabled=not args.quiet)
     try:
         result, ctx = engine.audit_with_context(
@@ -251,6 +287,8 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         return _check_one(args, pairs[0][0], pairs[0][1], out, err)
     from audit import batch
 
+    _check_outputs([args.json, args.junit])
+    _tolerances(args)
     if args.html or args.plot or args.markdown:
         raise _UsageError("--html, --plot and --markdown take a single model; use --json or --junit for a batch")
     result = batch.run_batch(
@@ -318,7 +356,8 @@ def main(argv: Sequence[str] | None = None, out: TextIO | None = None, err: Text
     out = out or sys.stdout
     err = err or sys.stderr
     try:
-        args = _parser().parse_args(list(sys.argv[1:] if argv is None else argv))
+        with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+            args = _parser().parse_args(list(sys.argv[1:] if argv is None else argv))
         if args.command == "check":
             return _check(args, out, err)
         if args.command == "solve":
@@ -327,6 +366,8 @@ def main(argv: Sequence[str] | None = None, out: TextIO | None = None, err: Text
             return _rules(out)
         _parser().print_help(out)
         return EXIT_INPUT
+    except SystemExit as exc:  # argparse's --help and --version
+        return int(exc.code) if isinstance(exc.code, int) else EXIT_PASS
     except _UsageError as exc:
         err.write(f"{exc}\n")
         return EXIT_INPUT
