@@ -151,7 +151,9 @@ def _expand_inputs(items: Sequence[str]) -> list[tuple[str, str | None]]:
             if pairs and pairs[-1][1] is None:
                 pairs[-1] = (pairs[-1][0], path)
                 continue
-            raise InputError((Problem("$", "this is a results file with no model before it"),), path)
+            raise InputError(
+                (Problem("format", "this is a results file (truss-audit-results) with no model before it"),), path
+            )
         pairs.append((path, None))
         if from_folder:
             folder_models.add(path)

@@ -27,3 +27,4 @@ class Context:
     solution: Solution | None  #: the float64 recomputation, None when the model cannot be solved
     unsolvable_reason: str  #: why ``solution`` is None ("" otherwise)
     precision: PrecisionReport | None  #: high-precision recomputation and bounds, None when not run
+    precision_fault: str = ""  #: why the high-precision stage crashed ("" when it did not)

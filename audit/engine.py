@@ -83,9 +83,14 @@ def build_context(
     elif not reason:
         reason = "the model is unstable: " + stab.summary()
     prec = None
+    prec_fault = ""
     if solution is not None and factor is not None:
         say("refining in high precision and proving error bounds")
-        prec = precision.analyse(model, system, factor, solution, results, digits=digits)
+        try:
+            prec = precision.analyse(model, system, factor, solution, results, digits=digits)
+        except Exception as exc:  # reported as a crash of the precision stage, never as a pass
+            last = traceback.extract_tb(exc.__traceback__)[-1]
+            prec_fault = f"{type(exc).__name__}: {exc} at {last.filename.rsplit('/', 1)[-1]}:{last.lineno}"
     return Context(
         model=model,
         results=results,
@@ -97,6 +102,7 @@ def build_context(
         solution=solution,
         unsolvable_reason=reason,
         precision=prec,
+        precision_fault=prec_fault,
     )
 
 
@@ -191,6 +197,25 @@ def audit_with_context(
     if progress is not None:
         progress("running the checks")
     outcomes, crashed = run_checks(ctx)
+    if ctx.precision_fault:
+        crashed = (*crashed, "precision-stage")
+        outcomes = (
+            *outcomes,
+            CheckOutcome(
+                check="precision-stage",
+                case=None,
+                status=Status.NOT_RUN,
+                reason="the high-precision stage crashed: " + ctx.precision_fault,
+                findings=(
+                    Finding(
+                        code="AU901",
+                        severity=Severity.ERROR,
+                        message="the high-precision recomputation crashed (" + ctx.precision_fault + "); "
+                        "its bounds are unknown",
+                    ),
+                ),
+            ),
+        )
     if ctx.solution is None:
         outcomes = (
             CheckOutcome(

@@ -77,8 +77,25 @@ def _read_json(data: bytes | bytearray | memoryview | str, name: str) -> _Json:
         raise _fail(
             name, "$", f"arrays and objects are nested too deeply (the limit is {_limits.MAX_DEPTH} levels)"
         ) from None
-    except ValueError as exc:  # an integer with more digits than Python converts
-        raise _fail(name, "$", f"a number has too many digits: {exc}") from None
+    except ValueError:
+        # an integer with more digits than Python converts: read again keeping such integers as their
+        # text, so that the value checks name the place (far beyond float64's range either way)
+        duplicates.clear()
+        constants[0] = 0
+
+        def int_hook(t: str) -> int | bytes:
+            return int(t) if len(t) <= 4000 else t.encode("ascii")
+
+        try:
+            doc = json.loads(
+                text,
+                parse_float=str.encode,
+                parse_int=int_hook,
+                parse_constant=constant_hook,
+                object_pairs_hook=pairs_hook,
+            )
+        except ValueError as exc:
+            raise _fail(name, "$", f"a number has too many digits: {exc}") from None
     return _Json(doc, duplicates, constants[0])
 
 
