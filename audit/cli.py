@@ -27,11 +27,15 @@ import re
 import sys
 from collections.abc import Sequence
 from pathlib import Path
-from typing import TextIO
+from typing import TYPE_CHECKING, Any, TextIO
 
 from audit import __version__
 from audit.errors import InputError, Problem, UnsolvableError
 from audit.findings import AuditResult, Severity
+
+if TYPE_CHECKING:
+    from audit.model import Model
+    from audit.tolerances import Tolerances
 
 EXIT_PASS = 0
 EXIT_FAIL = 1
@@ -167,7 +171,7 @@ def _expand_inputs(items: Sequence[str]) -> list[tuple[str, str | None]]:
     return out
 
 
-def _write_outputs(args: argparse.Namespace, result: AuditResult, model: object, ctx_extra: dict[str, object]) -> None:
+def _write_outputs(args: argparse.Namespace, result: AuditResult, model: Model, ctx_extra: dict[str, Any]) -> None:
     from audit.fileio import atomic_write_bytes, atomic_write_text
     from audit.reporters import html, json_report, junit, markdown
 
@@ -191,7 +195,7 @@ def _write_outputs(args: argparse.Namespace, result: AuditResult, model: object,
                 atomic_write_text(target, data)
 
 
-def _tolerances(args: argparse.Namespace):  # type: ignore[no-untyped-def]
+def _tolerances(args: argparse.Namespace) -> Tolerances:
     from audit.tolerances import Tolerances
 
     try:

@@ -87,7 +87,7 @@ def _node_bases(model: Model) -> tuple[dict[int, tuple[FloatArray, FloatArray]],
         rank = int(np.sum(s > 1e-12 * max(1.0, s[0])))
         Z = vt[rank:].T  # (d, d-rank)
         P = np.linalg.pinv(C)  # (d, k)
-        out[int(node)] = (Z.reshape(d, d - rank), P)
+        out[int(node)] = (np.asarray(Z.reshape(d, d - rank), dtype=np.float64), np.asarray(P, dtype=np.float64))
     return out, axis_aligned
 
 

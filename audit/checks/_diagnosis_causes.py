@@ -151,7 +151,7 @@ def member_candidates(
         dN = -solver.k * (solver.B @ z)
         dN[m] += 1.0
         unit = solver.response(-z, dN, np.zeros_like(z))  # response to one unit of extra force t in member m
-        t = _fit_t(obs, base, unit)
+        t = _fit_t(obs, base, unit, ev.actions)
         if t is None:
             continue
         beta = float((solver.B[m] @ z)[0])
@@ -198,19 +198,24 @@ def sherman_morrison_member(base: Prediction, unit: Prediction, strain: float, b
     return base.plus(unit, t)
 
 
-def _fit_t(obs: CaseResults, base: Prediction, unit: Prediction) -> float | None:
-    """Least-squares amplitude t of ``base + t·unit`` against the reported values (each kind over its scale)."""
+def _fit_t(obs: CaseResults, base: Prediction, unit: Prediction, actions: cm.CaseActions) -> float | None:
+    """Least-squares amplitude t of ``base + t·unit`` against the reported values (each kind over its scale).
+
+    Each kind's scale is at least the case's own scale from its actions (loads, free elongations), as in
+    the Evaluator: a kind whose values are all rounding noise (the reactions of a self-equilibrated
+    temperature case) must not dominate the fit through a tiny scale.
+    """
     num = den = 0.0
     pairs = (
-        (obs.displacements, obs.has_displacements, base.U, unit.U),
-        (obs.axial_forces, obs.has_axial_forces, base.N, unit.N),
-        (obs.reactions, obs.has_reactions, base.R, unit.R),
+        (obs.displacements, obs.has_displacements, base.U, unit.U, actions.length_scale),
+        (obs.axial_forces, obs.has_axial_forces, base.N, unit.N, actions.force_scale),
+        (obs.reactions, obs.has_reactions, base.R, unit.R, actions.force_scale),
     )
-    for rep, has, b, u in pairs:
+    for rep, has, b, u, floor in pairs:
         if not has:
             continue
         ok = np.isfinite(rep)
-        s = cm.scale_of(b)
+        s = max(cm.scale_of(b), floor)
         if s == 0 or not ok.any():
             continue
         num += float((rep[ok] - b[ok]) @ u[ok]) / s**2
