@@ -46,6 +46,24 @@ ROOF_CONTEXT = {
 }
 
 
+DEMO = Path(__file__).resolve().parent.parent / "reference_cases" / "demo"
+
+
+def _demo_model():
+    """The demo footbridge (invented data, see reference_cases/demo/README.md)."""
+    from audit import exchange
+
+    return exchange.load_model(str(DEMO / "footbridge.json"))
+
+
+def _demo_result():
+    from audit import engine, exchange
+
+    model = _demo_model()
+    results = exchange.load_results(str(DEMO / "footbridge.results.json"), model)
+    return engine.audit(model, results, inputs=(("footbridge.json", "0" * 64), ("footbridge.results.json", "1" * 64)))
+
+
 def _browse(page: Path, tmp: Path, *mode: str) -> subprocess.CompletedProcess[str]:
     if CHROMIUM is None:
         pytest.skip("chromium not found (apt-get install chromium); the HTML browser test needs it")
@@ -92,8 +110,9 @@ def test_console_capture_sees_a_blocked_fetch(tmp_path: Path) -> None:
         ("roof-fail", samples.roof_result, samples.roof_model, ROOF_CONTEXT),
         ("bay-unstable", samples.frame_result, samples.frame_model, None),
         ("tripod-pass", samples.tripod_result, samples.tripod_model, None),
+        ("footbridge-demo", _demo_result, _demo_model, None),
     ],
-    ids=["roof-fail", "bay-unstable", "tripod-pass"],
+    ids=["roof-fail", "bay-unstable", "tripod-pass", "footbridge-demo"],
 )
 def test_page_loads_clean_and_shows_verdict_and_failing_members(
     tmp_path: Path, name: str, make_result, make_model, context
