@@ -244,7 +244,10 @@ def audit_with_context(
         stability=ctx.stability.as_dict(),
         precision=ctx.precision.as_dict()
         if ctx.precision is not None
-        else {"status": "not_run", "reason": ctx.unsolvable_reason or "no solution"},
+        else {
+            "status": "crashed" if ctx.precision_fault else "not_run",
+            "reason": ctx.precision_fault or ctx.unsolvable_reason or "no solution",
+        },
         crashed=crashed,
         inputs=inputs,
         version=__version__,

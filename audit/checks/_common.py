@@ -37,6 +37,10 @@ def axis_name(a: int) -> str:
 
 
 # ------------------------------------------------------------------ cases
+#: share of the initial-strain / settlement force bound that still counts as a force scale (a noise floor)
+BOUND_SHARE = 1e-6
+
+
 @dataclass(frozen=True)
 class CaseActions:
     """What acts in one load case or combination (a combination: the factored sum of its cases)."""
@@ -45,7 +49,7 @@ class CaseActions:
     free_elongation: FloatArray  #: (n_members,) alpha*delta*L + length error
     settlement: FloatArray  #: (n_restraints,) prescribed displacement along each restraint
     is_combination: bool
-    force_scale: float  #: largest of |load|, EA/L·|free elongation|, max(EA/L)·|settlement|
+    force_scale: float  #: largest of |load| and BOUND_SHARE·(EA/L·|free elongation|, max(EA/L)·|settlement|)
     length_scale: float  #: largest of |free elongation|, |settlement|, force_scale / max(EA/L)
 
 
@@ -76,8 +80,13 @@ def _actions(model: Model, loads: FloatArray, d0: FloatArray, g: FloatArray, com
     float noise."""
     k = model.axial_stiffness() if model.n_members else np.zeros(1)
     kmax = float(np.max(k)) if k.size else 0.0
-    fs = max(scale_of(loads), scale_of(k * d0) if model.n_members else 0.0, kmax * scale_of(g))
-    ls = max(scale_of(d0), scale_of(g), fs / kmax if kmax > 0 else 0.0)
+    bound = max(scale_of(k * d0) if model.n_members else 0.0, kmax * scale_of(g))
+    ls = max(scale_of(d0), scale_of(g), max(scale_of(loads), bound) / kmax if kmax > 0 else 0.0)
+    # EA/L·δ0 and max(EA/L)·|settlement| bound what the initial strains and settlements could produce, but
+    # loosely: a settlement of a determinate truss moves it rigidly and stresses nothing.  As a scale they
+    # would widen every tolerance (a 5 % wrong force passed beside a 0.1 m settlement), so they only set a
+    # noise floor, BOUND_SHARE of the bound; the recomputed forces and the loads set the real scale.
+    fs = max(scale_of(loads), BOUND_SHARE * bound)
     return CaseActions(loads, d0, g, comb, fs, ls)
 
 

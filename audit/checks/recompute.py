@@ -32,7 +32,18 @@ RULES = (
     Rule("RC101", Severity.ERROR, "a reported displacement differs from the recomputed value", CHECK_ID),
     Rule("RC102", Severity.ERROR, "a reported member force differs from the recomputed value", CHECK_ID),
     Rule("RC103", Severity.ERROR, "a reported reaction differs from the recomputed value", CHECK_ID),
+    Rule(
+        "RC104",
+        Severity.WARNING,
+        "a reported number is printed too coarsely to judge: it agrees only within its own rounding, which is "
+        "a large share of the case's scale",
+        CHECK_ID,
+    ),
 )
+
+#: a printed rounding (half a unit in the last digit) above this share of the case's scale of its kind is
+#: too coarse to tell a right number from a wrong one when the agreement rests on that rounding alone
+COARSE_SHARE = 0.01
 
 #: rows of the discrepancy table kept per case (worst first); failures beyond it are counted
 TABLE_ROWS = 60
@@ -137,6 +148,7 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
                     data=(("quantity", quantity_name(kind, loc)), *cm.judgement_data(j, i), ("reference", ref.label)),
                 )
             )
+    findings += _too_coarse(model, cid, js, units)
     rows.sort(key=lambda r: -r[0])
     summary.append(("table_columns", ("kind", "where", "reported", "recomputed", "difference", "allowed", "verdict")))
     summary.append(("table", tuple(r[1] for r in rows[:TABLE_ROWS])))
@@ -163,6 +175,43 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         f"{rounding} within printed rounding"
     )
     return cm.outcome(CHECK_ID, cid, findings, reason, summary)
+
+
+def _too_coarse(model: Model, cid: str, js: dict[str, cm.Judgement], units: dict[str, str]) -> list[Finding]:
+    """RC104: numbers that pass only because their printed rounding is a large share of the scale.
+
+    A bare ``0`` for a force of 0.0104 MN carries a rounding of ±0.5 MN: it "agrees" with anything
+    smaller, so the audit cannot say it is right and must not pass it silently.
+    """
+    out: list[Finding] = []
+    for kind in KINDS:
+        j = js[kind]
+        q = j.quantum.ravel()
+        adiff = np.abs(np.nan_to_num(j.difference.ravel(), nan=0.0))
+        coarse = j.passed.ravel() & (q > COARSE_SHARE * j.scale) & (adiff > j.allowed.ravel() - q)
+        idx = np.flatnonzero(coarse)
+        kept, left = cm.listed(idx[np.argsort(-q[idx], kind="stable")].tolist())
+        for i in kept:
+            loc = _location(model, kind, i)
+            rep, exp = float(j.reported.ravel()[i]), float(j.expected.ravel()[i])
+            out.append(
+                Finding(
+                    code="RC104",
+                    severity=Severity.WARNING,
+                    case=cid,
+                    location=loc,
+                    message=f"{loc.label()}: reported {kind.replace('_', ' ')} {cm.fmt(rep)} {units[kind]} is printed "
+                    f"to ±{cm.fmt(float(q[i]))}, {100 * float(q[i]) / j.scale:.3g} % of the case's largest; "
+                    f"the recomputed {cm.fmt(exp)} lies within that rounding, so the number could not be judged",
+                    reported=rep,
+                    expected=exp,
+                    difference=rep - exp,
+                    tolerance=float(j.allowed.ravel()[i]),
+                    units=units[kind],
+                    data=(("quantity", quantity_name(kind, loc)), *cm.judgement_data(j, i), ("not_listed", left)),
+                )
+            )
+    return out
 
 
 def _not_reported(model: Model, cid: str, cr: CaseResults) -> list[Finding]:
