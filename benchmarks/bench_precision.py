@@ -11,6 +11,12 @@ Usage::
 
     python benchmarks/bench_precision.py grid2d 1e4 1e5
     python benchmarks/bench_precision.py lattice3d 3e4 --digits 30 --sparse-limit 2000000
+    python benchmarks/bench_precision.py lattice3d 1e5 --budget inf     # certificate whatever it costs
+
+``--budget`` is the size policy's limit in engine factorisations
+(``audit.certify.CERTIFICATE_BUDGET`` by default); the line "policy" shows
+the estimate the decision was made on, so that it can be compared with the
+measured ratio when the certificate is forced.
 
 Run the heavy sizes (2D 1e6, 3D 3e5) once, alone.
 """
@@ -62,7 +68,7 @@ def peak_gib() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20
 
 
-def run(kind: str, members: float, digits: int, sparse_limit: int) -> None:
+def run(kind: str, members: float, digits: int, sparse_limit: int, budget: float) -> None:
     m = grid2d_size(members) if kind == "grid2d" else lattice3d_size(members)
     t = time.perf_counter()
     model, _doc = build(kind, m)
@@ -79,7 +85,15 @@ def run(kind: str, members: float, digits: int, sparse_limit: int) -> None:
     t_solve = time.perf_counter() - t
     t = time.perf_counter()
     rep = precision.analyse(
-        model, system, factor, solution, None, digits=digits, sparse_limit=sparse_limit, max_factor_nonzeros=10**12
+        model,
+        system,
+        factor,
+        solution,
+        None,
+        digits=digits,
+        sparse_limit=sparse_limit,
+        max_factor_nonzeros=10**12,
+        certificate_budget=budget,
     )
     t_prec = time.perf_counter() - t
     tm = dict(rep.timings)
@@ -105,6 +119,12 @@ def run(kind: str, members: float, digits: int, sparse_limit: int) -> None:
         f"({rep.lambda_method}; {rep.lambda_reason}), cond est {rep.condition_estimate:.3g}, "
         f"peak RSS {peak_gib():.2f} GiB"
     )
+    plan = rep.certificate.get("size_policy", {})
+    print(
+        f"  policy: run={plan.get('run')} estimated {plan.get('estimated_cost_in_factorisations')} factorisations "
+        f"({plan.get('factor_nonzeros')} factor nonzeros, {plan.get('factor_nonzeros_source')}); "
+        f"digits estimated (not proven) {case.estimated_digits}"
+    )
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -113,9 +133,10 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("members", nargs="+", type=float)
     ap.add_argument("--digits", type=int, default=30)
     ap.add_argument("--sparse-limit", type=int, default=certify.SPARSE_LIMIT)
+    ap.add_argument("--budget", type=float, default=certify.CERTIFICATE_BUDGET)
     args = ap.parse_args(argv)
     for members in args.members:
-        run(args.kind, members, args.digits, args.sparse_limit)
+        run(args.kind, members, args.digits, args.sparse_limit, args.budget)
     return 0
 
 

@@ -103,12 +103,21 @@ def _model_wide(rep: precision.PrecisionReport) -> CheckOutcome:
         )
     )
     if lo is None:
+        estimated = [c.estimated_digits for c in rep.cases if c.estimated_digits is not None]
+        reached = (
+            f"; the refinement reached about {min(estimated)} digits by its own estimate (not proven)"
+            if estimated
+            else ""
+        )
         findings.append(
             Finding(
                 code="HP105",
                 severity=Severity.WARNING,
-                message=f"no error bound could be proven: {rep.lambda_reason}",
-                data=(("reason", rep.lambda_reason),),
+                message=f"no error bound could be proven: {rep.lambda_reason}{reached}",
+                data=(
+                    ("reason", rep.lambda_reason),
+                    ("digits_estimated_not_proven", min(estimated) if estimated else None),
+                ),
             )
         )
     for c in rep.cases:

@@ -1,0 +1,273 @@
+"""Exact numbers: decimal texts as scaled integers, high-precision values as integers times 10^a·2^b.
+
+A decimal text is read exactly (``fractions.Fraction``) into an integer M with
+a power of ten common to its kind of quantity, value = M·10^-k
+(:func:`decimal_ints`); a high-precision value is an integer times
+``10^e10·2^e2`` (:class:`Fixed`).  Any finite decimal text is handled
+(``5e-324``, ``1e-400``, ``0e400``, 60 digits): nothing here converts a huge
+integer or a power of ten to float64 before the scaling is done in integer
+arithmetic.  :func:`ints_to_float` cuts each entry to its leading 64 bits and
+a sticky bit only at the end (so the rounding to 53 bits stays correct, and a
+small entry next to a huge one keeps its digits); :func:`floor_log2_scaled`
+is exact; :func:`round_scaled` multiplies in float64 only while the products
+stay far inside the float range (:func:`scale_float`), and exactly otherwise.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Sequence
+from dataclasses import dataclass
+from fractions import Fraction
+
+import mpmath
+import numpy as np
+
+from audit.model import FloatArray
+
+U = 2.0**-53
+
+
+ObjArray = np.ndarray  #: numpy object array of Python ints
+
+
+def _decimal_k(fr: Fraction) -> int:
+    """Smallest k with fr·10^k an integer (fr must be a decimal fraction)."""
+    d = fr.denominator
+    a = (d & -d).bit_length() - 1
+    rest = d >> a
+    b = 0
+    while rest % 5 == 0:
+        rest //= 5
+        b += 1
+    if rest != 1:
+        raise ValueError(f"{fr} is not a decimal fraction")
+    return max(a, b)
+
+
+def decimal_ints(texts: Sequence[str]) -> tuple[ObjArray, int]:
+    """Integers M_i and one k with value_i = M_i · 10^-k exactly (texts parsed once each)."""
+    parsed: dict[str, Fraction] = {t: Fraction(t) for t in set(texts)}
+    k = max((_decimal_k(f) for f in parsed.values()), default=0)
+    p = 10**k
+    as_int = {t: f.numerator * (p // f.denominator) for t, f in parsed.items()}
+    out = np.empty(len(texts), dtype=object)
+    out[:] = [as_int[t] for t in texts]
+    return out, k
+
+
+_NUMBER = re.compile(r"^[+-]?(\d*)(?:\.(\d*))?(?:[eE]([+-]?\d+))?$")
+
+
+def text_quantum(text: str) -> float:
+    """Half a unit in the last written digit of a decimal text ("2.1e8" -> 5e6)."""
+    m = _NUMBER.match(text.strip())
+    if not m:
+        return float("nan")
+    frac = len(m.group(2) or "")
+    exp = int(m.group(3) or 0) - frac
+    if exp > 308:  # "0e400": a finite value whose last digit's unit is beyond the float range
+        return float("inf")
+    if exp < -400:
+        return 0.0
+    return 0.5 * 10.0**exp
+
+
+def texts_or_repr(texts: Sequence[str], values: FloatArray) -> tuple[list[str], bool]:
+    """The decimal texts, or the shortest repr of each float when the model carries no texts."""
+    flat = np.asarray(values, dtype=np.float64).reshape(-1)
+    if len(texts) == flat.size and flat.size:
+        return list(texts), True
+    return [repr(float(x)) for x in flat], flat.size == 0
+
+
+def ints_to_float(ints: ObjArray, e10: int, e2: int) -> FloatArray:
+    """Correctly rounded float64 of ints·10^e10·2^e2 (up to one ulp when e10 < 0).
+
+    Integers beyond the float range are cut, entry by entry, to their leading
+    64 bits plus a sticky bit before conversion (so small entries next to huge
+    ones keep their digits); a value beyond the float range becomes ±inf,
+    one below it 0 or a subnormal.
+    """
+    a = np.asarray(ints, dtype=object)
+    if a.size == 0:
+        return np.zeros(a.shape)
+    shift = 0
+    if e10 > 0:
+        a = a * 10**e10
+    elif e10 < 0:
+        den = 10 ** (-e10)
+        shift = 64 + den.bit_length()
+        a = (a * (1 << shift)) // den
+    try:
+        f = a.astype(np.float64)
+    except OverflowError:
+        return _huge_ints_to_float(a, e2 - shift)
+    return np.ldexp(f, e2 - shift)
+
+
+def _huge_ints_to_float(a: ObjArray, e2: int) -> FloatArray:
+    """float64 of a·2^e2 entry by entry for integers too long for a float: leading 64 bits and a sticky bit."""
+    flat = a.reshape(-1)
+    mant = np.empty(flat.size, dtype=np.float64)
+    expo = np.empty(flat.size, dtype=np.int64)
+    for i, x in enumerate(flat.tolist()):
+        x = int(x)
+        mag = abs(x)
+        sh = max(mag.bit_length() - 64, 0)
+        top = mag >> sh
+        if sh and mag & ((1 << sh) - 1):
+            top |= 1  # sticky bit: keeps the rounding to 53 bits correct
+        mant[i] = float(-top if x < 0 else top)
+        expo[i] = e2 + sh
+    with np.errstate(over="ignore", under="ignore"):
+        out = np.ldexp(mant, np.clip(expo, -(2**30), 2**30).astype(np.int32))
+    return out.reshape(a.shape)
+
+
+def floor_log2_scaled(x: float, k10: int) -> int:
+    """floor(log2(x·10^k10)) for a finite x > 0, exactly (integer arithmetic, any k10)."""
+    m, e = math.frexp(x)
+    mi = int(m * 2.0**53)
+    e -= 53
+    if k10 >= 0:
+        return (mi * 10**k10).bit_length() - 1 + e
+    den = 10 ** (-k10)
+    j = mi.bit_length() - den.bit_length()  # floor(log2(mi/den)) is j or j − 1
+    if not _le_pow(den, j, mi):
+        j -= 1
+    return j + e
+
+
+def _le_pow(den: int, j: int, mi: int) -> bool:
+    """den·2^j <= mi, exactly, for any integer j."""
+    return (den << j) <= mi if j >= 0 else den <= (mi << -j)
+
+
+def scale_float(k10: int, e2: int) -> float | None:
+    """10^k10·2^e2 as the float64 ``10.0**k10 * 2.0**e2``, or None when it is beyond about 2^±900.
+
+    None tells the caller to scale exactly (:func:`round_scaled`): a product
+    of such a factor with a float could overflow or lose its digits.
+    """
+    if abs(k10 * math.log2(10) + e2) > 900:
+        return None
+    if abs(k10) <= 300 and abs(e2) <= 1000:
+        return 10.0**k10 * 2.0**e2
+    return float(mpmath.mpf(10) ** k10 * mpmath.mpf(2) ** e2)
+
+
+def round_scaled(x: FloatArray, k10: int, e2: int, conv: float | None) -> ObjArray:
+    """Nearest integers to x·10^k10·2^e2.
+
+    With ``conv`` the float64 of the scale (:func:`scale_float`) and every
+    product ``x·conv`` below 2^1000 this is ``rint(x·conv)`` in float64 (the
+    steering of the refinement needs no more); otherwise it is computed
+    exactly from each float's 53-bit mantissa, rounding half up.
+    """
+    x = np.asarray(x, dtype=np.float64)
+    if conv is not None and math.isfinite(conv) and conv > 0:
+        big = float(np.max(np.abs(x), initial=0.0))
+        if big * conv < 2.0**1000:
+            return float_to_ints(np.rint(x * conv))
+    m, e = np.frexp(x)
+    mi = (m * 2.0**53).astype(np.int64).astype(object)
+    sh = e.astype(np.int64) - 53 + e2
+    p10 = 10 ** abs(k10)
+
+    def one(mant: int, s: int) -> int:
+        num, den = (mant * p10, 1) if k10 >= 0 else (mant, p10)
+        if s >= 0:
+            num <<= s
+        else:
+            den <<= -s
+        return (2 * num + den) // (2 * den)
+
+    out = np.empty(x.shape, dtype=object)
+    out.reshape(-1)[:] = [one(int(a), int(b)) for a, b in zip(mi.reshape(-1), sh.reshape(-1), strict=True)]
+    return out
+
+
+def float_to_ints(y: FloatArray) -> ObjArray:
+    """Exact Python ints of an integer-valued float array."""
+    y = np.asarray(y, dtype=np.float64)
+    out = np.empty(y.shape, dtype=object)
+    small = np.abs(y) < 2.0**62
+    out[small] = y[small].astype(np.int64).astype(object)
+    if (~small).any():
+        m, e = np.frexp(y[~small])
+        mi = (m * 2.0**53).astype(np.int64).astype(object)
+        out[~small] = mi * (np.ones(mi.shape, dtype=object) << (e - 53).astype(object))
+    return out
+
+
+def float_exact_to_scale(x: FloatArray, k10: int, s2: int) -> tuple[ObjArray, FloatArray]:
+    """floor(x·10^k10·2^s2) as ints (exact when possible) and the per-entry conversion error in units of the scale."""
+    x = np.asarray(x, dtype=np.float64)
+    m, e = np.frexp(x)
+    mi = (m * 2.0**53).astype(np.int64).astype(object) * 10**k10
+    sh = (e.astype(np.int64) - 53 + s2).astype(object)
+    out = np.empty(x.shape, dtype=object)
+    err = np.zeros(x.shape)
+    pos = (e.astype(np.int64) - 53 + s2) >= 0
+    one = np.ones(x.shape, dtype=object)
+    out[pos] = mi[pos] * (one[pos] << sh[pos])
+    neg = ~pos
+    if neg.any():
+        out[neg] = mi[neg] // (one[neg] << (-sh[neg]))
+        err[neg] = 1.0
+    return out, err
+
+
+@dataclass(frozen=True)
+class Fixed:
+    """High-precision values ints·10^e10·2^e2 (exact dyadic-decimal numbers)."""
+
+    ints: ObjArray
+    e10: int
+    e2: int
+
+    def to_float(self) -> FloatArray:
+        return ints_to_float(self.ints, self.e10, self.e2)
+
+    def to_mpf(self, dps: int) -> ObjArray:
+        """mpmath mpf values at ``dps`` decimal digits (object array of the same shape)."""
+        with mpmath.workdps(dps + 10):
+            scale = mpmath.mpf(10) ** self.e10 * mpmath.mpf(2) ** self.e2
+            out = np.empty(self.ints.shape, dtype=object)
+            flat = out.reshape(-1)
+            for i, v in enumerate(self.ints.reshape(-1)):
+                flat[i] = mpmath.mpf(int(v)) * scale
+        return out
+
+    def to_fractions(self) -> ObjArray:
+        """Exact values as fractions.Fraction (object array)."""
+        scale = Fraction(10) ** self.e10 * Fraction(2) ** self.e2
+        out = np.empty(self.ints.shape, dtype=object)
+        out.reshape(-1)[:] = [Fraction(int(v)) * scale for v in self.ints.reshape(-1)]
+        return out
+
+    def to_strings(self, digits: int) -> ObjArray:
+        vals = self.to_mpf(digits)
+        out = np.empty(vals.shape, dtype=object)
+        out.reshape(-1)[:] = [mpmath.nstr(v, digits, strip_zeros=False) for v in vals.reshape(-1)]
+        return out
+
+
+def ints_to_float_rows(a: ObjArray) -> FloatArray:
+    """Float rows of an integer matrix, each row scaled by a power of two so that its largest entry is below 2^60.
+
+    For direction vectors: the direction is kept, the length is not.
+    """
+    if not a.size:
+        return np.zeros(a.shape)
+    try:
+        return a.astype(np.float64)
+    except OverflowError:
+        pass
+    out = np.empty(a.shape, dtype=np.float64)
+    for i in range(a.shape[0]):
+        top = max(abs(int(x)).bit_length() for x in a[i])
+        out[i] = ints_to_float(a[i], 0, -max(top - 60, 0))
+    return out
