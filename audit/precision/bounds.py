@@ -356,7 +356,7 @@ def _reported(
     if not unit_in_range(unit):
         return ReportedProof("not_established", OUT_OF_RANGE, None, None, None, None, qs)
     omega = _omega(ex, mag[:, :, 0] * unit, den)
-    good = bool(omega <= dprec) if np.isfinite(dprec) else None
+    good = bool(omega <= max(dprec, float64_floor(Kabs, umf, den))) if np.isfinite(dprec) else None
     if st.inclined_settlement[i] or cert.lam_s is None or bound_dof is None:
         why = "λ_lo not certified" if cert.lam_s is None else "inclined settlement rounded"
         return ReportedProof("not_established", why, None, None, omega, good, qs)
@@ -367,3 +367,27 @@ def _reported(
     own = float(np.sqrt((bound_dof**2).sum()))
     lower = float(np.sqrt(((drep - uf) ** 2).sum())) * (1 - 1e-12) - own
     return ReportedProof("evaluated", "", bound, max(lower, 0.0), omega, good, qs)
+
+
+def float64_floor(Kabs: sp.csr_matrix, u: FloatArray, den: FloatArray) -> float:
+    """The componentwise backward error a correct float64 solution may still show.
+
+    A normwise backward-stable float64 solve leaves a residual ‖r‖∞ ≲ γ_2k ‖K‖∞ ‖d‖∞, k the most nonzeros in
+    a row of K (Higham, *Accuracy and Stability of Numerical Algorithms*, 2nd ed., §3.1 for γ_n = nu/(1−nu),
+    Thms 7.1 and 7.3 for the normwise and componentwise (Oettli–Prager) backward errors).  Measured
+    componentwise, that residual is at most γ_2k ‖K‖∞ ‖d‖∞ / min_i (|K||d| + |f|)_i.  Input texts given to 17
+    digits claim a data precision finer than float64 can honour; below this floor the audit cannot call a
+    reported solution worse than the data allow.
+    """
+    if Kabs.shape[0] == 0:
+        return 0.0
+    k = int(np.diff(Kabs.indptr).max())
+    nu = 2 * k * 2.0**-53
+    gamma = nu / (1.0 - nu)
+    norm_k = float(np.max(Kabs @ np.ones(Kabs.shape[1])))
+    norm_d = float(np.max(np.abs(u))) if u.size else 0.0
+    d = np.asarray(den, dtype=np.float64).ravel()
+    d = d[d > 0]
+    if d.size == 0 or norm_d == 0.0:
+        return gamma
+    return max(gamma, gamma * norm_k * norm_d / float(d.min()))
