@@ -31,6 +31,18 @@ Causes tested, in this order:
 
 The structural candidates (2-4) and the superposition machinery live in
 :mod:`audit.checks._diagnosis_causes`; this module runs them, fits the scales (1) and words the findings.
+
+Cost on large models: the scales (1) are O(n) and, when they explain every differing kind, the structural
+families are not tried.  Each structural family makes ONE block solve with the existing factor for all its
+candidates (a 2-D right-hand side); the fit of t and an upper bound of each prediction's largest value are
+reduced over all members in chunks as matrix products, and each candidate is first judged on a sample of
+the reported quantities (the worst of the base comparison).  With an upper bound of the scale the allowance
+can only grow, so that figure is a lower bound of the full one: a candidate whose bound exceeds 1 cannot
+explain the results.  Only the candidates that may (bound ≤ 1), and, while none does, those that may be the
+closest one, are evaluated over every reported quantity; every finding is the one an exhaustive evaluation
+gives (:class:`audit.checks._diagnosis_block.Search`).  When few quantities differ (``LOCAL_LIMIT``) and
+there are more loaded nodes than ``max_candidates``, loads equally suspect by their joint residuals are
+tried nearest first (member hops from the joints with a differing quantity).
 """
 
 from __future__ import annotations
@@ -106,10 +118,12 @@ def fit_ratio(reported: FloatArray, recomputed: FloatArray) -> float | None:
     """Least-squares c in ``reported ≈ c · recomputed`` over the quantities reported (None if undefined)."""
     r, p = np.ravel(reported), np.ravel(recomputed)
     ok = np.isfinite(r) & np.isfinite(p)
-    den = float(p[ok] @ p[ok])
+    if not ok.all():
+        r, p = r[ok], p[ok]
+    den = float(p @ p)
     if not ok.any() or den == 0.0:
         return None
-    return float(r[ok] @ p[ok]) / den
+    return float(r @ p) / den
 
 
 def _with(cr: CaseResults, **arrays: Any) -> CaseResults:
@@ -149,13 +163,26 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     candidates: list[dc.Candidate] = []
     if ctx.factor is not None:
         solver = dc.Superposition(ctx)
-        ev = dc.Evaluator(model, actions, obs, tol)
-        balanced = _balanced(model, actions, obs, tol)
+        ev = dc.Evaluator(model, actions, obs, tol, base)
+        search = dc.Search()
+        balanced, residual = _balanced(model, actions, obs, tol)
         summary.append(("reported_forces_balance_the_loads", balanced))
         if balanced is not False:
-            candidates += dc.member_candidates(ctx, ev, obs, base, solver, actions.free_elongation)
-            candidates += dc.support_candidates(ctx, ev, obs, base, solver, actions.loads)
-        candidates += dc.load_candidates(ctx, ev, obs, base, solver, actions.loads, only_supported=balanced is True)
+            candidates += dc.member_candidates(ctx, ev, obs, base, solver, actions.free_elongation, search)
+            candidates += dc.support_candidates(ctx, ev, obs, base, solver, actions.loads, search)
+        candidates += dc.load_candidates(
+            ctx,
+            ev,
+            obs,
+            base,
+            solver,
+            actions.loads,
+            only_supported=balanced is True,
+            search=search,
+            near=lambda: _near_failing(model, js, bad),
+            residual=residual,
+        )
+        summary.append(("candidates_evaluated_in_full", search.exact_evaluations))
     summary.append(("candidates_tried", len(candidates)))
     good = sorted((c for c in candidates if c.worst <= 1.0), key=lambda c: c.worst)
     if good:
@@ -211,9 +238,26 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     return cm.outcome(CHECK_ID, cid, findings, "no single cause found", summary)
 
 
-def _balanced(model: Model, actions: cm.CaseActions, obs: CaseResults, tol: Any) -> bool | None:
+#: at most this many differing quantities make the loads near them the first tried among equal suspects
+LOCAL_LIMIT = 1000
+
+
+def _near_failing(model: Model, js: dict[str, cm.Judgement], bad: dict[str, int]) -> FloatArray | None:
+    """Member hops from each node to the nearest joint with a differing quantity (a differing member force
+    counts at both its ends); None when too many quantities differ for nearness to mean anything."""
+    if not 0 < sum(bad.values()) <= LOCAL_LIMIT:
+        return None
+    nodes = [np.flatnonzero(np.any(js[k].failed, axis=1)) for k in ("displacement", "reaction") if bad[k]]
+    if bad["axial_force"]:
+        nodes.append(model.conn[js["axial_force"].failed].ravel())
+    return dc.locality(model, np.concatenate(nodes) if nodes else np.zeros(0, dtype=np.int64))
+
+
+def _balanced(
+    model: Model, actions: cm.CaseActions, obs: CaseResults, tol: Any
+) -> tuple[bool | None, FloatArray | None]:
     """Whether the reported forces and reactions balance the model's loads at every joint checked (None
-    when no member force is reported).
+    when no member force is reported), and the joint residuals (None likewise).
 
     A source that analysed the model with one member's EA changed, or with a support added or removed,
     still balances the model's loads; one that missed, doubled or moved a load does not, at that joint
@@ -221,10 +265,10 @@ def _balanced(model: Model, actions: cm.CaseActions, obs: CaseResults, tol: Any)
     candidates without losing the right one.
     """
     if not obs.has_axial_forces:
-        return None
+        return None, None
     res, q, mag = joint_residuals(model, actions.loads, obs)
     scale = max(cm.scale_of(actions.loads, obs.axial_forces, cm.effective_reactions(model, obs)), actions.force_scale)
-    return not bool(cm.judge(res, np.zeros_like(res), q, scale, tol, magnitude=mag).failed.any())
+    return not bool(cm.judge(res, np.zeros_like(res), q, scale, tol, magnitude=mag).failed.any()), res
 
 
 # ----------------------------------------------------------------- 1. scales
@@ -288,9 +332,9 @@ def _scale_tests(
         c = float(np.mean(mags))
         kinds = [k for k, ck in (("axial_force", cN), ("reaction", cR)) if ck is not None and k in explained]
         findings.append(_unit_finding(cid, "force", c, kinds, FORCE_UNITS, declared_f, tol, model.units.force))
-    if cU is not None and cU != 0.0:
+    if cU is not None and cU != 0.0 and abs(cU - 1.0) > tol.ratio_match:
         w = passes("displacement", cr.displacements / cU, cr.displacement_quantum / abs(cU))
-        if w is not None and abs(cU - 1.0) > tol.ratio_match:
+        if w is not None:
             explained.add("displacement")
             obs = _with(
                 obs, displacements=cr.displacements / cU, displacement_quantum=cr.displacement_quantum / abs(cU)

@@ -1,0 +1,313 @@
+"""The machinery the diagnosis judges its candidate causes with: predictions, responses by superposition
+with the existing factor (block solves, member-chunked reductions), the exact figure of a prediction and
+lower bounds of it for many candidates at once, and the search that decides which candidates need the exact
+figure.  See :mod:`audit.checks.diagnosis` for the method and :mod:`audit.checks._diagnosis_causes` for the
+causes.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import scipy.sparse as sp
+
+from audit import stiffness
+from audit.checks import _common as cm
+from audit.context import Context
+from audit.findings import Location
+from audit.model import CaseResults, FloatArray, Model
+
+
+@dataclass(frozen=True)
+class Prediction:
+    """What the reported values should be if a candidate cause is the right one."""
+
+    U: FloatArray  #: (n_nodes, dim)
+    N: FloatArray  #: (n_members,)
+    R: FloatArray  #: (n_nodes, dim)
+
+    def plus(self, other: Prediction, t: float = 1.0) -> Prediction:
+        return Prediction(self.U + t * other.U, self.N + t * other.N, self.R + t * other.R)
+
+
+@dataclass(frozen=True)
+class Candidate:
+    code: str
+    message: str
+    location: Location
+    #: largest |difference|/allowed over every reported quantity after the correction; when ``exact`` is
+    #: False, a lower bound of it (from a sample of the quantities), enough to show the candidate fails and
+    #: is not the closest one
+    worst: float
+    data: tuple[tuple[str, Any], ...]
+    exact: bool = True
+
+
+#: quantities of each kind in the sample the lower bounds are taken over (the worst of the base comparison)
+SAMPLE = 2048
+#: relative slack on the lower bounds, for the rounding of the block products against the column ones
+SLACK = 1e-9
+#: members per chunk when a block of responses is reduced over all members (bounds the memory held)
+CHUNK = 1 << 16
+
+
+class Superposition:
+    """Responses of the model by superposition with the existing factor of the restrained K."""
+
+    def __init__(self, ctx: Context) -> None:
+        assert ctx.factor is not None
+        self.model = ctx.model
+        self.T = ctx.system.T
+        self.U_p = ctx.system.U_p
+        self.factor = ctx.factor
+        self.B = stiffness.compatibility_matrix(ctx.model)
+        self.L = ctx.model.lengths()
+        self.k = ctx.model.E * ctx.model.A / self.L  #: EA/L, as Model.axial_stiffness
+        self.mask = np.zeros(ctx.model.n_nodes, dtype=bool)
+        self.mask[ctx.system.supported_nodes] = True
+        self._chunks: list[tuple[int, int, Any]] | None = None
+        self._free: Any
+
+    def displacements(self, F: FloatArray) -> FloatArray:
+        """(n_dofs, c) displacements under global load columns F (dense or sparse; restraints held): one
+        block solve.  Without inclined supports T only selects the free dofs, and is applied as a selection."""
+        free = self._free_rows()
+        if free is None:
+            rhs = self.T.T @ F
+            rhs = rhs.toarray() if sp.issparse(rhs) else np.asarray(rhs)
+            W = self.factor.solve(rhs).reshape(rhs.shape)
+            return np.asarray(self.T @ W)
+        rhs = sp.csr_matrix(F)[free].toarray() if sp.issparse(F) else np.asarray(F)[free]
+        W = self.factor.solve(rhs).reshape(rhs.shape)
+        out = np.zeros((self.T.shape[0], *rhs.shape[1:]))
+        out[free] = W
+        return out
+
+    def _free_rows(self) -> Any:
+        """The global dof of each reduced dof when T is a pure selection (one 1 per row and column), else None."""
+        if not hasattr(self, "_free"):
+            T = sp.csr_matrix(self.T)
+            self._free = None
+            if T.nnz == T.shape[1] and np.all(T.data == 1.0) and np.all(np.diff(T.indptr) <= 1):
+                rows = np.repeat(np.arange(T.shape[0]), np.diff(T.indptr))
+                free = np.empty(T.shape[1], dtype=np.int64)
+                free[T.indices] = rows
+                if T.shape[1] == 0 or int(np.bincount(T.indices, minlength=T.shape[1]).max()) == 1:
+                    self._free = free
+        return self._free
+
+    def forces_on_rows(self, X: FloatArray, rows_R: Any) -> FloatArray:
+        """``Bᵀ (k∘(B X))`` on the flat dof indices ``rows_R``, from the members that meet them only."""
+        BR = self.B[:, rows_R].tocsr()
+        members = np.flatnonzero(np.diff(BR.indptr))
+        if members.size == 0:
+            return np.zeros((len(rows_R), X.shape[1]))
+        Y = self.k[members, None] * (self.B[members] @ X)
+        return np.asarray(BR[members].T @ Y)
+
+    def response(self, dU: FloatArray, dN: FloatArray, dF: FloatArray, mask: cm.BoolArray | None = None) -> Prediction:
+        """Prediction increment from a displacement increment, member force increment and load increment."""
+        m = self.mask if mask is None else mask
+        d = self.model.dim
+        dR = (self.B.T @ dN - dF).reshape(-1, d)
+        dR[~m] = 0.0
+        return Prediction(dU.reshape(-1, d), dN, dR)
+
+    def chunks(self) -> list[tuple[int, int, Any]]:
+        if self._chunks is None:
+            n = self.model.n_members
+            self._chunks = [(i, min(i + CHUNK, n), self.B[i : min(i + CHUNK, n)]) for i in range(0, n, CHUNK)]
+        return self._chunks
+
+    def force_stats(
+        self,
+        X: FloatArray,
+        rows_R: Any,
+        sign: float = 1.0,
+        extra: tuple[Any, Any] | None = None,
+        weights: tuple[FloatArray, FloatArray] | None = None,
+    ) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
+        """Reductions over all members of the member-force columns ``Y = sign · k∘(B X) (+1 at extra)``,
+        one member chunk at a time (the (n_members, c) matrix is never held).
+
+        Returns (column max |Y|, ``Bᵀ Y`` on the flat dof indices ``rows_R``, ``w·Y`` and ``o·Y²`` for
+        ``weights = (w, o)``, zeros without).  ``extra = (members, columns)`` adds 1 at those entries (the
+        unit extra force of the member candidates).
+        """
+        c = X.shape[1]
+        colmax = np.zeros(c)
+        BR = self.B[:, rows_R].tocsr() if len(rows_R) else None
+        btn = np.zeros((len(rows_R), c))
+        num = np.zeros(c)
+        den = np.zeros(c)
+        for i0, i1, Bc in self.chunks():
+            Y = Bc @ X
+            Y *= (sign * self.k[i0:i1])[:, None]
+            if extra is not None:
+                sel = (extra[0] >= i0) & (extra[0] < i1)
+                Y[extra[0][sel] - i0, extra[1][sel]] += 1.0
+            colmax = np.maximum(colmax, np.maximum(np.max(Y, axis=0), -np.min(Y, axis=0)))
+            if BR is not None:
+                btn += BR[i0:i1].T @ Y
+            if weights is not None:
+                num += weights[0][i0:i1] @ Y
+                den += np.einsum("i,ij,ij->j", weights[1][i0:i1], Y, Y)
+        return colmax, btn, num, den
+
+
+def colmax(X: FloatArray) -> FloatArray:
+    """Column max |X| of an (n, c) matrix (0 for no rows)."""
+    if X.shape[0] == 0:
+        return np.zeros(X.shape[1])
+    return np.maximum(np.max(X, axis=0), -np.min(X, axis=0))
+
+
+class Evaluator:
+    """Largest |reported − predicted| / allowed over every reported quantity, for many candidate predictions.
+
+    The same rule as :func:`audit.checks.recompute.compare_case` (scales per kind from the prediction and the
+    case's actions), with the reported values, quanta and masks prepared once.
+
+    :meth:`worst` is the exact figure for one full prediction.  :meth:`lower_bounds` gives, for a block of
+    candidates at once, a lower bound of it from the predictions on a sample of the reported quantities (the
+    ``SAMPLE`` worst of each kind in the base comparison) and an upper bound of each prediction's largest
+    |value| (the allowance grows with the scale, so a larger scale can only lower the ratio).  A candidate
+    whose bound exceeds 1 fails without its exact figure being needed.
+    """
+
+    def __init__(
+        self, model: Model, actions: cm.CaseActions, obs: CaseResults, tol: Any, base: Prediction | None = None
+    ) -> None:
+        self.tol = tol
+        self.actions = actions
+        self.parts = []
+        self.sample: dict[str, tuple[Any, Any]] = {}
+        self.base_max: dict[str, float] = {}
+        load_scale = cm.scale_of(actions.loads)
+        self.action_scale = {
+            "U": actions.length_scale,
+            "N": actions.force_scale,
+            "R": max(load_scale, actions.force_scale),
+        }
+        for key, vals, q, has in (
+            ("U", obs.displacements, obs.displacement_quantum, obs.has_displacements),
+            ("N", obs.axial_forces, obs.axial_force_quantum, obs.has_axial_forces),
+            ("R", obs.reactions, obs.reaction_quantum, obs.has_reactions),
+        ):
+            flat = np.ravel(vals)
+            idx = np.flatnonzero(np.isfinite(flat)) if has else np.zeros(0, dtype=np.int64)
+            quantum = np.nan_to_num(np.ravel(q)[idx], nan=0.0) if tol.use_quanta else np.zeros(idx.size)
+            self.parts.append((key, idx, flat[idx], quantum, cm.scale_of(flat[idx])))
+            pos = np.arange(idx.size)
+            if base is not None:
+                b = np.ravel(getattr(base, key))
+                self.base_max[key] = cm.scale_of(b)
+                if idx.size > SAMPLE:
+                    p = b[idx]
+                    ratio = np.abs(flat[idx] - p) / (quantum + tol.relative * np.abs(p) + 1e-300)
+                    pos = np.sort(np.argpartition(-np.nan_to_num(ratio, nan=np.inf), SAMPLE)[:SAMPLE])
+            self.sample[key] = (pos, idx[pos])
+
+    def reports(self, key: str) -> bool:
+        """Whether any quantity of the kind is reported."""
+        return any(k == key and idx.size > 0 for k, idx, *_rest in self.parts)
+
+    def rows(self, key: str) -> Any:
+        """Flat indices of the sampled quantities of a kind."""
+        return self.sample[key][1]
+
+    def worst(self, pred: Prediction) -> float:
+        a, tol = self.actions, self.tol
+        out = 0.0
+        for key, idx, rep, q, rep_scale in self.parts:
+            if idx.size == 0:
+                continue
+            p = np.ravel(getattr(pred, key))
+            if key == "U":
+                scale = cm.first_nonzero(max(cm.scale_of(p), a.length_scale), rep_scale)
+            elif key == "R":
+                scale = cm.first_nonzero(max(cm.scale_of(p, a.loads), a.force_scale), rep_scale)
+            else:
+                scale = cm.first_nonzero(max(cm.scale_of(p), a.force_scale), rep_scale)
+            sub = p[idx]
+            allowed = q + np.maximum(tol.relative * np.abs(sub), tol.floor * scale)
+            out = max(out, float(np.max(np.abs(rep - sub) / np.maximum(allowed, 1e-300))))
+        return out
+
+    def lower_bounds(self, sub: dict[str, FloatArray], pmax: dict[str, FloatArray]) -> FloatArray:
+        """(c,) lower bounds of :meth:`worst` for c candidates.
+
+        ``sub[key]`` (n_sample, c): each candidate's predicted values on :meth:`rows` of the kind;
+        ``pmax[key]`` (c,): an upper bound of each candidate's largest finite |predicted value| of the kind.
+        A kind left out of ``pmax`` is left out of the bound (which stays a lower bound).
+        """
+        tol = self.tol
+        c = next(iter(pmax.values())).shape[0]
+        out = np.zeros(c)
+        for key, idx, rep, q, rep_scale in self.parts:
+            if idx.size == 0 or key not in pmax:
+                continue
+            pos, _rows = self.sample[key]
+            a = self.action_scale[key]
+            ub = np.maximum(pmax[key], a)
+            if a == 0.0:
+                ub = np.maximum(ub, rep_scale)  # a zero prediction falls back on the reported scale
+            s = sub[key]
+            allowed = q[pos][:, None] + np.maximum(tol.relative * np.abs(s), tol.floor * ub[None, :])
+            r = np.abs(rep[pos][:, None] - s) / np.maximum(allowed, 1e-300)
+            if r.shape[0]:
+                out = np.maximum(out, np.max(r, axis=0))
+        return out * (1.0 - SLACK)
+
+
+class Search:
+    """Which candidates need their exact figure, over the families tried in order (members, supports, loads).
+
+    Every candidate whose lower bound is at most 1 is evaluated exactly (it may explain the results).  While
+    no candidate has explained them, the closest one must be known exactly too: each family evaluates its
+    candidates in increasing order of the bound until the next bound exceeds the best figure found so far.
+    Every other candidate keeps its bound (``Candidate.exact`` False), which is above 1 and above the
+    closest figure, so the selection made from the list is the same as with every figure exact.
+    """
+
+    def __init__(self) -> None:
+        self.good_found = False
+        self.best = np.inf
+        self.exact_evaluations = 0
+
+    def settle(self, lbs: FloatArray, exact: Callable[[int], float]) -> tuple[FloatArray, cm.BoolArray]:
+        """(figures, exact?) for a family's candidates from their lower bounds and the exact evaluator."""
+        worst = np.array(lbs, dtype=np.float64)
+        done = np.zeros(worst.size, dtype=bool)
+        for j in np.flatnonzero(worst <= 1.0).tolist():
+            worst[j] = exact(j)
+            done[j] = True
+        self.exact_evaluations += int(done.sum())
+        if np.any(worst[done] <= 1.0):
+            self.good_found = True
+        if not self.good_found:
+            block_best = float(np.min(worst[done])) if done.any() else np.inf
+            for j in np.lexsort((np.arange(worst.size), worst)).tolist():
+                if done[j]:
+                    continue
+                if worst[j] > block_best or worst[j] >= self.best:
+                    break
+                worst[j] = exact(j)
+                done[j] = True
+                self.exact_evaluations += 1
+                block_best = min(block_best, float(worst[j]))
+            self.best = min(self.best, block_best)
+        return worst, done
+
+
+def reaction_rows(ev: Evaluator, solver: Superposition, extra_nodes: Any = ()) -> tuple[Any, Any]:
+    """Flat dof indices where a candidate's reactions may differ from the base (the supported nodes' and
+    ``extra_nodes``') together with the sampled reported reactions; and the positions of the sample in them."""
+    d = solver.model.dim
+    nodes = np.union1d(np.flatnonzero(solver.mask), np.asarray(extra_nodes, dtype=np.int64))
+    dofs = (nodes[:, None] * d + np.arange(d)).ravel()
+    rows = np.union1d(dofs, ev.rows("R")).astype(np.int64)
+    return rows, np.searchsorted(rows, ev.rows("R"))
