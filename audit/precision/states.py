@@ -9,11 +9,11 @@ is rounded in the exact path (flagged per state in
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
-from audit.model import FloatArray, Model
+from audit.model import FloatArray, LoadCase, Model
 
 from .exact_numbers import ObjArray, decimal_ints, ints_to_float, texts_or_repr
 
@@ -36,9 +36,28 @@ class States:
     abs_load: FloatArray  #: (n_nodes, dim, ns) |f| in float
 
 
+def _with_texts(lc: LoadCase) -> LoadCase:
+    """A load case whose ``*_text`` terms are filled from its float arrays where they were left empty.
+
+    A model read from a file always carries the decimal texts; one built in memory (the Python API, the
+    benchmark generators) may not, and must then be taken at its float values (as the coordinates, E and A
+    already are), never as unloaded.
+    """
+    repl: dict[str, object] = {}
+    if not lc.load_text and np.any(lc.loads):
+        nz = np.argwhere(lc.loads != 0.0)
+        repl["load_text"] = tuple((int(n), int(a), repr(float(lc.loads[n, a]))) for n, a in nz)
+    for arr, attr in ((lc.temperature, "temperature_text"), (lc.length_error, "length_error_text")):
+        if not getattr(lc, attr) and np.any(arr):
+            repl[attr] = tuple((int(j), repr(float(arr[j]))) for j in np.flatnonzero(arr))
+    if not lc.settlement_text and np.any(lc.settlement):
+        repl["settlement_text"] = tuple((int(j), repr(float(lc.settlement[j]))) for j in np.flatnonzero(lc.settlement))
+    return replace(lc, **repl) if repl else lc  # type: ignore[arg-type]
+
+
 def load_states(model: Model) -> States:
     d, nn, m, nr = model.dim, model.n_nodes, model.n_members, model.n_restraints
-    lcs = model.load_cases
+    lcs = tuple(_with_texts(lc) for lc in model.load_cases)
 
     def texts(attr: str) -> list[str]:
         return [t for lc in lcs for (*_k, t) in getattr(lc, attr)]
