@@ -158,7 +158,7 @@ def method_of_joints(doc: dict[str, Any]) -> tuple[dict[str, sp.Expr], dict[tupl
             sol = sp.solve(eqs, syms, dict=True)
             assert len(sol) == 1, f"joint {joint} is not solvable"
             assert all(s_ in sol[0] for s_ in syms), f"joint {joint} is not solvable"
-            forces.update({m: sp.nsimplify(sol[0][s_]) for m, s_ in zip(unknown, syms, strict=True)})
+            forces.update({m: sol[0][s_] for m, s_ in zip(unknown, syms, strict=True)})
             progress = True
         assert progress, "no joint with at most two unknowns: not a simple truss"
     reactions: dict[tuple[str, str], sp.Expr] = {}
