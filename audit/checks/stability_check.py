@@ -50,7 +50,10 @@ RULES = (
     Rule("ST118", Severity.ERROR, "a panel has no diagonal and can shear", CHECK_ID),
     Rule("ST119", Severity.WARNING, "Maxwell's count looks sufficient but the geometry is unstable", CHECK_ID),
     Rule(
-        "ST120", Severity.WARNING, "the numerical search found at least this many mechanisms (a lower bound)", CHECK_ID
+        "ST120",
+        Severity.WARNING,
+        "the mechanism count is a lower bound (and the rank an upper one): the numerical search could not finish",
+        CHECK_ID,
     ),
 )
 
@@ -121,7 +124,10 @@ def findings_of(rep: StabilityReport) -> list[Finding]:
                 Finding(
                     "ST120",
                     Severity.WARNING,
-                    f"the numerical search stopped at {rep.mechanisms} zero modes: there may be more ({rep.evidence})",
+                    f"the mechanism count is a lower bound: at least {rep.mechanisms} mechanisms (rank at most "
+                    f"{rep.rank}), {rep.self_stress_words()}; the numerical search could not establish the exact "
+                    f"number ({rep.evidence})",
+                    reported=float(rep.mechanisms),
                     data=base,
                 )
             )
@@ -156,9 +162,21 @@ def _base_data(rep: StabilityReport) -> tuple[tuple[str, Any], ...]:
         ("mechanisms", rep.mechanisms),
         ("rigid_body_mechanisms", rep.rigid_body_mechanisms),
         ("internal_mechanisms", rep.internal_mechanisms),
-        ("self_stress_states", rep.self_stress_states),
+        ("self_stress_states", rep.self_stress_established),
         ("proof", rep.proof),
         ("threshold", rep.threshold),
+        *_bounds(rep),
+    )
+
+
+def _bounds(rep: StabilityReport) -> tuple[tuple[str, Any], ...]:
+    """The bound flags, only when the counts are bounds (a capped numerical search)."""
+    if not rep.lower_bound_only:
+        return ()
+    return (
+        ("mechanisms_at_least", rep.mechanisms),
+        ("rank_at_most", rep.rank),
+        ("self_stress_states_at_least", rep.self_stress_states),
     )
 
 
@@ -197,8 +215,9 @@ def _summary(rep: StabilityReport, condition: float) -> tuple[tuple[str, Any], .
         ("maxwell_count", rep.maxwell_count),
         ("rank", rep.rank),
         ("mechanisms", rep.mechanisms),
-        ("self_stress_states", rep.self_stress_states),
+        ("self_stress_states", rep.self_stress_established),
         ("classification", rep.classification),
         ("proof", rep.proof),
         ("condition_estimate", condition),
+        *_bounds(rep),
     )

@@ -35,9 +35,12 @@ The rank is established
   factorisation refuses a scaled condition above 1e14) that is the evidence of
   no mechanism; otherwise the null space of the geometry-only Gram matrix
   ``G = A Aᵀ`` (unit member stiffness, unit reaction springs: a spread of EA/L
-  neither hides nor fakes a mechanism) by shift-invert Lanczos with an SPD
-  factor of ``G + |σ| I``, eigenvalues below :data:`ZERO_EIGEN_RELATIVE` · ‖G‖∞
-  counted as zero and the gap to the first non-zero one reported.
+  neither hides nor fakes a mechanism) by dense eigh or by shift-invert block
+  subspace iteration with an SPD factor of ``G + |σ| I`` (a block finds a null
+  space of any multiplicity), eigenvalues below :data:`ZERO_EIGEN_RELATIVE` ·
+  ‖G‖∞ counted as zero and the gap to the first non-zero one reported.  A
+  numerical count never breaks Calladine's rule with s ≥ 0 (M ≥ d·j − m − r);
+  a search capped at :data:`ZERO_MODE_LIMIT` zero modes reports a lower bound.
 
 Mechanisms are split into rigid-body motions the supports leave free (per
 connected part) and internal mechanisms, named joint by joint, and internal
@@ -56,12 +59,13 @@ motions), :mod:`~audit.stability.rank` (which way the rank is established), :mod
 
 from __future__ import annotations
 
-from typing import Any
+from collections.abc import Callable
+from typing import Any, TypeVar
 
 import numpy as np
 
 from audit import linsolve
-from audit.model import Model
+from audit.model import IntArray, Model
 from audit.solve import System
 from audit.stability.first_order import first_order_test, with_order
 from audit.stability.limits import (
@@ -70,14 +74,31 @@ from audit.stability.limits import (
     EXACT_DOF_LIMIT,
     EXACT_UNSTABLE_LIMIT,
     ZERO_EIGEN_RELATIVE,
+    ZERO_MODE_LIMIT,
 )
 from audit.stability.naming import name_mechanisms
-from audit.stability.prechecks import connected_parts, constraints, local_deficiencies
-from audit.stability.rank import establish_rank
+from audit.stability.prechecks import Constraints, Local, connected_parts, constraints, local_deficiencies, near_words
+from audit.stability.rank import Rank, establish_rank
 from audit.stability.report import Mechanism, SelfStress, StabilityReport, Trap
-from audit.stability.rigid import rigid_motions
+from audit.stability.rigid import Rigid, rigid_motions
 from audit.stability.self_stress import name_self_stress, self_stress_basis
 from audit.stability.traps import find_traps
+
+T = TypeVar("T")
+
+#: the first-order verdict when the test itself failed numerically (the reason is in the notes)
+_ORDER_FAILED: dict[str, Any] = {
+    "tested": False,
+    "result": "not proven infinitesimal",
+    "reason": "a numerical step of the product-force test failed (see the notes)",
+}
+#: ... and when the mechanism count is only a lower bound
+_ORDER_BOUND: dict[str, Any] = {
+    "tested": False,
+    "result": "not proven infinitesimal",
+    "reason": "the mechanism count is only a lower bound, so neither the mechanism basis nor the "
+    "states of self-stress are complete",
+}
 
 
 def analyse(
@@ -105,7 +126,12 @@ def analyse(
 
     Notes
     -----
-    ``DENSE_EIGEN_LIMIT`` and ``ZERO_EIGEN_RELATIVE`` are read from this package at call time.
+    ``DENSE_EIGEN_LIMIT``, ``ZERO_EIGEN_RELATIVE`` and ``ZERO_MODE_LIMIT`` are read from this package at call
+    time.  The counts always satisfy Calladine's rule with s ≥ 0: when the numerical search is capped the
+    mechanism count is a lower bound (``lower_bound_only``), the rank an upper bound and the number of
+    states of self-stress a lower bound ``max(0, m + r − rank)`` (``self_stress_is_lower_bound``); no
+    self-stress basis and no first-order test are formed then.  A numerical failure while describing the
+    mechanisms or states of self-stress, or in the first-order test, becomes a note, never an exception.
     """
     d, j, m = model.dim, model.n_nodes, model.n_members
     nd = model.n_dofs
@@ -119,7 +145,8 @@ def analyse(
     n_parts, labels = connected_parts(model)
     rigid = rigid_motions(model, cons, labels, n_parts)
     n_rigid = sum(p.basis.shape[1] for p in rigid)
-    local = local_deficiencies(model, cons)
+    local, near = local_deficiencies(model, cons)
+    near_notes = [near_words(model, nr) for nr in near]
 
     found = establish_rank(
         model,
@@ -132,25 +159,27 @@ def analyse(
         exact_limit=exact_limit,
         dense_limit=DENSE_EIGEN_LIMIT,
         zero_relative=ZERO_EIGEN_RELATIVE,
+        zero_limit=ZERO_MODE_LIMIT,
     )
-    rank, M_basis, proof = found.rank, found.basis, found.proof
+    rank, proof = found.rank, found.proof
+    lower_bound = found.lower_bound_only
+    notes = list(found.notes) + near_notes
+    if nd - rank < max(-maxwell, 0):
+        # Calladine's rule s − M = m + r − d·j with s >= 0: never fewer than d·j − m − r mechanisms
+        lower_bound = True
+        notes.append(
+            f"the rank found ({rank}) would leave fewer than the d·j − m − r = {-maxwell} mechanisms that "
+            "Calladine's rule guarantees: the count is reported as that lower bound"
+        )
+        rank = m + r
     mech = nd - rank
-    s = m + r - rank
+    # with the mechanism count only a lower bound the rank is an upper bound, and s = m + r − rank a lower one
+    s = max(0, m + r - rank) if lower_bound else m + r - rank
     n_rigid = min(n_rigid, mech)
 
-    # self-stress basis (for naming and the first-order test), when small enough
-    S_basis = self_stress_basis(model, cons, s, found.exact)
-    mechanisms, internal_basis = name_mechanisms(model, rigid, local, M_basis, labels, mech - n_rigid)
-    order: dict[str, Any] = {}
-    if mech > n_rigid:
-        order = first_order_test(model, cons, M_basis, internal_basis, s, proof)
-        verdicts = order.pop("verdicts", [])
-        it = iter(verdicts)
-        mechanisms = tuple(
-            with_order(mk, next(it, order["result"])) if mk.kind == "internal" else mk for mk in mechanisms
-        )
-    traps = find_traps(model, cons, rigid, local, mechanisms, maxwell, mech, s, labels)
-    stresses = name_self_stress(model, cons, S_basis) if S_basis is not None else ()
+    mechanisms, order, traps, stresses = _describe(
+        model, cons, found, rigid, local, labels, mech, n_rigid, s, maxwell, lower_bound, notes
+    )
     return StabilityReport(
         dim=d,
         joints=j,
@@ -164,18 +193,79 @@ def analyse(
         rigid_body_mechanisms=n_rigid,
         internal_mechanisms=mech - n_rigid,
         self_stress_states=s,
+        self_stress_is_lower_bound=lower_bound,
         proof=proof,
         method=found.method,
         evidence=found.evidence,
         threshold=found.threshold,
-        lower_bound_only=found.lower_bound_only,
+        lower_bound_only=lower_bound,
         components=n_parts,
         mechanism_list=mechanisms,
         self_stress_list=stresses,
         traps=traps,
         order_test=order,
-        notes=found.notes,
+        notes=tuple(notes),
     )
+
+
+def _describe(
+    model: Model,
+    cons: Constraints,
+    found: Rank,
+    rigid: list[Rigid],
+    local: list[Local],
+    labels: IntArray,
+    mech: int,
+    n_rigid: int,
+    s: int,
+    maxwell: int,
+    lower_bound: bool,
+    notes: list[str],
+) -> tuple[tuple[Mechanism, ...], dict[str, Any], tuple[Trap, ...], tuple[SelfStress, ...]]:
+    """The named mechanisms (with their first-order verdicts), the first-order test, the traps and the named
+    states of self-stress.  Each stage is optional: a numerical failure in one becomes a note."""
+    # the self-stress basis (naming only) is formed when the count is known, never for a mere bound
+    S_basis = (
+        None if lower_bound else _guarded(notes, "self-stress basis", self_stress_basis, model, cons, s, found.exact)
+    )
+    n_internal = mech - n_rigid
+    named = _guarded(
+        notes, "naming the mechanisms", name_mechanisms, model, rigid, local, found.basis, labels, n_internal
+    )
+    mechanisms, internal_basis = named if named is not None else ((), None)
+    order: dict[str, Any] = {}
+    if n_internal > 0:
+        if lower_bound:
+            order = dict(_ORDER_BOUND)
+        else:
+            args = (model, cons, found.basis, internal_basis, s, found.proof)
+            order = _guarded(notes, "first-order test", first_order_test, *args) or dict(_ORDER_FAILED)
+        it = iter(order.pop("verdicts", []))
+        mechanisms = tuple(
+            with_order(mk, next(it, order["result"])) if mk.kind == "internal" else mk for mk in mechanisms
+        )
+    args_t = (model, cons, rigid, local, mechanisms, maxwell, mech, s, labels, lower_bound)
+    traps = _guarded(notes, "recognising the traps", find_traps, *args_t) or ()
+    stresses = (
+        (_guarded(notes, "naming the states of self-stress", name_self_stress, model, cons, S_basis) or ())
+        if S_basis is not None
+        else ()
+    )
+    return mechanisms, order, traps, stresses
+
+
+def _guarded(notes: list[str], stage: str, fn: Callable[..., T], *args: Any) -> T | None:
+    """``fn(*args)``, or None with a note when a numerical step of an optional stage fails.
+
+    The counts and the rank are established before these stages; describing the mechanisms and states of
+    self-stress must never turn a valid model into a crash (a singular or indefinite factor, a
+    non-converged SVD, running out of memory on a huge basis).
+    """
+    try:
+        return fn(*args)
+    except (np.linalg.LinAlgError, ArithmeticError, MemoryError, ValueError, RuntimeError) as exc:
+        notes.append(f"{stage} not done: {type(exc).__name__}: {exc}")
+        return None
 
 
 __all__ = [
@@ -184,6 +274,7 @@ __all__ = [
     "EXACT_DOF_LIMIT",
     "EXACT_UNSTABLE_LIMIT",
     "ZERO_EIGEN_RELATIVE",
+    "ZERO_MODE_LIMIT",
     "Mechanism",
     "SelfStress",
     "StabilityReport",

@@ -12,10 +12,18 @@ EXACT_DOF_LIMIT = 3000
 ZERO_EIGEN_RELATIVE = 1.0e-12
 #: a joint's direction Gram matrix eigenvalue below this (unit vectors) is a missing direction
 LOCAL_RANK_TOLERANCE = 1.0e-10
+#: up to this many suspect joints, whether a joint really lacks a direction is decided in exact arithmetic
+EXACT_LOCAL_LIMIT = 5000
 #: relative tolerance of the small dense rank decisions (rigid-body analysis, self-stress support)
 SMALL_RANK_TOLERANCE = 1.0e-9
 #: below this order the geometry-only matrix is decomposed densely
 DENSE_EIGEN_LIMIT = 1200
+#: the sparse numerical search finds at most this many zero modes (a count that reaches it is a lower bound)
+ZERO_MODE_LIMIT = 512
+#: ... and keeps at most this many entries (order × block columns) in one block of its subspace iteration
+ZERO_MODE_ENTRIES = 10_000_000
+#: at most this many shift-invert steps of the subspace iteration
+SUBSPACE_STEPS = 60
 #: at most this many mechanisms and states of self-stress are described one by one
 DESCRIBE_LIMIT = 20
 #: at most this many joints are listed in a mechanism's mode

@@ -5,11 +5,12 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import scipy.linalg as sla
 import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from audit import linsolve, stiffness
 from audit.model import FloatArray, IntArray, Model
+from audit.stability.limits import SUBSPACE_STEPS, ZERO_MODE_ENTRIES, ZERO_MODE_LIMIT
 from audit.stability.prechecks import Constraints
 
 
@@ -34,15 +35,37 @@ def equilibrium_matrix(model: Model, cons: Constraints) -> sp.csr_matrix:
     return sp.hstack([Bt, C]).tocsr()
 
 
-def zero_modes(G: sp.csr_matrix, dense_limit: int, zero_relative: float) -> tuple[FloatArray, float, float, bool, str]:
+def zero_modes(
+    G: sp.csr_matrix,
+    dense_limit: int,
+    zero_relative: float,
+    at_least: int = 0,
+    limit: int = ZERO_MODE_LIMIT,
+) -> tuple[FloatArray, float, float, bool, str]:
     """(basis (n, z) of the numerical null space of PSD G, largest zero eigenvalue, smallest non-zero one,
-    lower-bound flag, backend) by dense eigh or shift-invert Lanczos with an SPD factor of G + |σ| I.
+    capped flag, backend) by dense eigh or by shift-invert subspace iteration with an SPD factor of G + σI.
 
     Eigenvalues below ``zero_relative`` · ‖G‖∞ count as zero; G is decomposed densely up to order
     ``dense_limit`` (the caller passes the package's ``ZERO_EIGEN_RELATIVE`` and ``DENSE_EIGEN_LIMIT``).
+
+    Above it, a block X of p orthonormal columns is iterated, X ← orth((G + σI)⁻¹ X) with σ = 10⁻⁸ ‖G‖∞,
+    with a Rayleigh-Ritz step (eigenvalues θ of Xᵀ G X) after each solve.  A block method finds a null
+    space of any multiplicity, where a single-vector Lanczos run sees one copy of a repeated eigenvalue
+    and the rest only through round-off (Saad, *Numerical Methods for Large Eigenvalue Problems*, 2nd ed.,
+    SIAM 2011, the chapters on subspace iteration and on Lanczos; recalled from memory).  By Cauchy
+    interlacing the k-th smallest θ is at least the k-th smallest eigenvalue of G (Parlett, *The Symmetric
+    Eigenvalue Problem*, SIAM 1998; recalled from memory), so the number of θ below the threshold never
+    exceeds the true number of zero eigenvalues: the count can only be short.  Once settled with fewer
+    zero θ than columns it is complete (every null direction is amplified 1/σ against at most
+    1/(λ + σ) for the rest); a full block is widened.  The block starts with max(16, ``at_least`` + 8)
+    columns (the caller passes the count that Calladine's rule guarantees, d·j − m − r) and is doubled
+    while every θ is zero, up to ``limit`` + 1 columns (and :data:`ZERO_MODE_ENTRIES` entries); a search
+    that stops with a full block, or whose count did not settle within :data:`SUBSPACE_STEPS` solves, is
+    returned as capped (a lower bound).  The "smallest non-zero" value is then the first non-zero θ, an
+    upper estimate of the smallest non-zero eigenvalue.
     """
     n = G.shape[0]
-    norm = float(abs(G).sum(axis=1).max()) if G.nnz else 1.0
+    norm = gram_norm(G)
     tol = zero_relative * norm
     if n <= dense_limit:
         w, v = np.linalg.eigh(G.toarray())
@@ -50,29 +73,58 @@ def zero_modes(G: sp.csr_matrix, dense_limit: int, zero_relative: float) -> tupl
         below = float(w[z].max()) if z.any() else 0.0
         above = float(w[~z].min()) if (~z).any() else math.inf
         return v[:, z], below, above, False, "dense eigh"
-    sigma = -1.0e-8 * norm
-    factor = linsolve.factorize((G - sigma * sp.eye(n, format="csr")).tocsr())
-    op = spla.LinearOperator((n, n), matvec=factor.solve, dtype=np.float64)
-    k = min(2, n - 2)
+    sigma = 1.0e-8 * norm
+    factor = linsolve.factorize((G + sigma * sp.eye(n, format="csr")).tocsr())
+    cap = max(1, min(limit, n, max(16, ZERO_MODE_ENTRIES // n)))
+    p = min(n, max(16, at_least + 8), cap + 1)
+    # a fixed seed: a random start block otherwise changes the named basis from run to run
+    rng = np.random.default_rng(20261201)
+    X = _orth(rng.standard_normal((n, p)))
     while True:
-        # zero modes are the dominant, well separated eigenvalues of (G − σI)⁻¹ and converge first; the
-        # loose Lanczos tolerance only affects the non-zero Ritz values, and each zero mode is confirmed by
-        # its own Rayleigh quotient vᵀ G v below
-        # a fixed start vector: ARPACK otherwise starts from a random one and the named basis changes run to run
-        v0 = np.random.default_rng(20261201).standard_normal(n)
-        w, v = spla.eigsh(
-            G, k=k, sigma=sigma, which="LM", OPinv=op, tol=1e-8, ncv=min(n - 1, max(2 * k + 1, 10)), v0=v0
-        )
-        order = np.argsort(w)
-        w, v = w[order], v[:, order]
-        w = np.where(w < tol, np.einsum("ik,ik->k", v, np.asarray(G @ v)), w)
-        z = w < tol
-        if not z.all() or k >= min(n - 2, 512):
+        Y, theta, settled = _subspace_iteration(G, factor, X, tol)
+        nz = int(np.sum(theta < tol))
+        if nz < p or p > cap:
             break
-        k = min(4 * k, n - 2, 512)
-    below = float(w[z].max()) if z.any() else 0.0
-    above = float(w[~z].min()) if (~z).any() else math.inf
-    return v[:, z], below, above, bool(z.all()), f"shift-invert Lanczos ({factor.backend})"
+        # every Ritz value is zero: the block may be too small for the null space; widen it
+        grow = min(n, 2 * p, cap + 1)
+        if grow <= p:
+            break
+        X = _orth(np.hstack([Y, rng.standard_normal((n, grow - p))]))
+        p = grow
+    capped = nz >= p or not settled
+    below = float(theta[:nz].max()) if nz else 0.0
+    above = float(theta[nz]) if nz < theta.size else math.inf
+    return Y[:, :nz], below, above, capped, f"shift-invert subspace iteration, block of {p} ({factor.backend})"
+
+
+def _subspace_iteration(
+    G: sp.csr_matrix, factor: linsolve.Factor, X: FloatArray, tol: float
+) -> tuple[FloatArray, FloatArray, bool]:
+    """(Ritz vectors, ascending Ritz values, settled) of the block X after shift-invert steps.
+
+    Stops once the number of Ritz values below ``tol`` is the same after three successive steps, or after
+    :data:`SUBSPACE_STEPS` solves (then ``settled`` is False).  A null direction not yet in the block is
+    damped relative to the zero modes by σ / (λ + σ) per step (λ the non-zero eigenvalues the block still
+    holds), so a count that stands for three steps has stopped growing.
+    """
+    counts: list[int] = []
+    Y, theta = X, np.zeros(X.shape[1])
+    for _step in range(SUBSPACE_STEPS):
+        X = _orth(factor.solve(X))
+        GX = np.asarray(G @ X)
+        H = X.T @ GX
+        theta, V = np.linalg.eigh((H + H.T) / 2)
+        Y = X @ V
+        counts.append(int(np.sum(theta < tol)))
+        if len(counts) >= 3 and counts[-1] == counts[-2] == counts[-3]:
+            return Y, theta, True
+        X = Y
+    return Y, theta, False
+
+
+def _orth(X: FloatArray) -> FloatArray:
+    """Orthonormal basis of the columns of the tall block X (Householder QR, LAPACK on a Fortran copy)."""
+    return np.asarray(sla.qr(np.asfortranarray(X), mode="economic", overwrite_a=True, check_finite=False)[0])
 
 
 def gram_norm(G: sp.csr_matrix) -> float:

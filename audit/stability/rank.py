@@ -21,7 +21,7 @@ from audit import linsolve
 from audit.model import FloatArray, Model
 from audit.solve import SINGULAR_CONDITION
 from audit.stability.exact import exact_nullspace_T, exact_rows, full_rank_mod_p
-from audit.stability.limits import EXACT_UNSTABLE_LIMIT, EXACT_WORK_LIMIT, MODULUS
+from audit.stability.limits import EXACT_UNSTABLE_LIMIT, EXACT_WORK_LIMIT, MODULUS, ZERO_MODE_LIMIT
 from audit.stability.numerical import gram, gram_norm, zero_modes
 from audit.stability.prechecks import Constraints, Local
 
@@ -37,7 +37,9 @@ class Rank:
     method: str  #: how the rank was established, in words
     evidence: str  #: the numbers behind a numerical rank
     threshold: float | None  #: the numerical zero threshold used (relative), None when exact
-    lower_bound_only: bool  #: the numerical search stopped before finding every zero mode
+    #: the numerical search stopped before finding every zero mode: ``rank`` is an upper bound, the
+    #: mechanism count d·j − rank a lower bound (``basis`` may have fewer columns than that count)
+    lower_bound_only: bool
     notes: tuple[str, ...]
 
 
@@ -53,6 +55,7 @@ def establish_rank(
     exact_limit: int,
     dense_limit: int,
     zero_relative: float,
+    zero_limit: int = ZERO_MODE_LIMIT,
 ) -> Rank:
     """Rank of A = [Bᵀ | C] and a basis of the null space of Aᵀ (the mechanisms).
 
@@ -63,8 +66,16 @@ def establish_rank(
         rules out a full rank, so the modular proof and the factor evidence are skipped).
     condition, method, exact_limit
         As for :func:`audit.stability.analyse`.
-    dense_limit, zero_relative
-        The numerical path's dense-decomposition order and relative zero threshold.
+    dense_limit, zero_relative, zero_limit
+        The numerical path's dense-decomposition order, relative zero threshold and the most zero modes its
+        sparse search looks for.
+
+    Notes
+    -----
+    A numerical count is never below what Calladine's rule s − M = m + r − d·j guarantees with s ≥ 0
+    (Pellegrino & Calladine 1986): M ≥ d·j − m − r, and M is at least the free rigid-body motions and the
+    missing joint directions the pre-checks found.  A search that finds fewer (capped, or not settled)
+    reports the larger number as a lower bound (``lower_bound_only``), the rank then an upper bound.
     """
     d, j = model.dim, model.n_nodes
     nd = model.n_dofs
@@ -114,16 +125,33 @@ def establish_rank(
         vnode = np.array([loc.node for loc in local], dtype=np.int64)
         vdir = np.array([loc.direction for loc in local]).reshape(-1, d)
         G = gram(model, cons, vnode, vdir)
-        Z, below, above, lower_bound, backend = zero_modes(G, dense_limit, zero_relative)
+        # Calladine's rule with s >= 0: at least d·j − m − r mechanisms, whatever the geometry
+        guaranteed = max(nd - model.n_members - int(cons.node.size), n_rigid, len(local))
+        Z, below, above, capped, backend = zero_modes(
+            G, dense_limit, zero_relative, at_least=max(0, guaranteed - len(local)), limit=zero_limit
+        )
         L = np.zeros((nd, len(local)))
         for i, loc in enumerate(local):
             L[loc.node * d : (loc.node + 1) * d, i] = loc.direction
         M_basis = np.hstack([L, Z])
-        rank = nd - M_basis.shape[1]
+        found_modes = M_basis.shape[1]
+        lower_bound = capped or found_modes < guaranteed
+        rank = nd - max(found_modes, guaranteed)
         threshold = zero_relative
         gap = "no zero eigenvalue" if Z.shape[1] == 0 else f"largest zero eigenvalue {below / gram_norm(G):.2e}"
         how = f"geometry-only Gram matrix A Aᵀ (unit EA/L), {backend}; {len(local)} deficient joint directions first"
-        evidence = f"{gap}, smallest non-zero {above / gram_norm(G):.2e} (relative to ‖G‖∞), threshold {threshold:.0e}"
+        nonzero = (
+            f"smallest non-zero{' Ritz value' if 'subspace' in backend else ''} {above / gram_norm(G):.2e}"
+            if math.isfinite(above)
+            else "no non-zero eigenvalue among those computed"
+        )
+        evidence = f"{gap}, {nonzero} (relative to ‖G‖∞), threshold {threshold:.0e}"
+        if lower_bound:
+            stop = "the search stopped with its block full" if capped else "the search settled"
+            evidence += (
+                f"; {stop} at {found_modes} zero modes, and Calladine's rule (s ≥ 0) guarantees at least "
+                f"{guaranteed}: the mechanism count is a lower bound and the rank an upper bound"
+            )
         if factor is not None:
             notes.append("the restrained stiffness was factorised although the pre-checks found a mechanism")
     return Rank(

@@ -77,17 +77,19 @@ class StabilityReport:
     springs_counted: int
     springs_zero: int
     maxwell_count: int  #: m + r − d·j
-    rank: int
-    mechanisms: int
+    rank: int  #: an upper bound when ``lower_bound_only``
+    mechanisms: int  #: a lower bound when ``lower_bound_only``
     rigid_body_mechanisms: int
     internal_mechanisms: int
-    self_stress_states: int
+    self_stress_states: int  #: a lower bound when ``self_stress_is_lower_bound``
     proof: str  #: "exact" or "numerical"
     method: str  #: how the rank was established, in words
     evidence: str  #: the numbers behind a numerical rank
     threshold: float | None  #: the numerical zero threshold used (relative), None when exact
     lower_bound_only: bool  #: the numerical search stopped before finding every zero mode
     components: int
+    #: ``self_stress_states`` is only a lower bound (with ``lower_bound_only``: the rank is then an upper bound)
+    self_stress_is_lower_bound: bool = False
     mechanism_list: tuple[Mechanism, ...] = ()
     self_stress_list: tuple[SelfStress, ...] = ()
     traps: tuple[Trap, ...] = ()
@@ -120,18 +122,32 @@ class StabilityReport:
         if self.internal_mechanisms:
             parts.append(plural(self.internal_mechanisms, "internal mechanism"))
         at_least = "at least " if self.lower_bound_only else ""
+        at_most = "at most " if self.lower_bound_only else ""
         return (
             f"unstable: {at_least}{plural(self.mechanisms, 'independent mechanism')} ({', '.join(parts)}), "
-            f"rank {self.rank} < d·j = {self.dim * self.joints}, "
-            f"{plural(self.self_stress_states, 'state')} of self-stress ({how}; {count})"
+            f"rank {at_most}{self.rank} < d·j = {self.dim * self.joints}, {self.self_stress_words()} "
+            f"({how}; {count})"
         )
+
+    def self_stress_words(self) -> str:
+        """'2 states of self-stress', 'at least 3 states ...', or 'states of self-stress not established'."""
+        if not self.self_stress_is_lower_bound:
+            return f"{plural(self.self_stress_states, 'state')} of self-stress"
+        if self.self_stress_states > 0:
+            return f"at least {plural(self.self_stress_states, 'state')} of self-stress"
+        return "states of self-stress not established"
+
+    @property
+    def self_stress_established(self) -> int | None:
+        """The number of states of self-stress, None when only a lower bound is known."""
+        return None if self.self_stress_is_lower_bound else self.self_stress_states
 
     def as_dict(self) -> dict[str, Any]:
         return {
             "maxwell_count": self.maxwell_count,
             "rank": self.rank,
             "mechanisms": self.mechanisms,
-            "self_stress_states": self.self_stress_states,
+            "self_stress_states": self.self_stress_established,
             "classification": self.classification,
             "proof": self.proof,
             "summary": self.summary(),
@@ -146,6 +162,9 @@ class StabilityReport:
             "rigid_body_mechanisms": self.rigid_body_mechanisms,
             "internal_mechanisms": self.internal_mechanisms,
             "mechanism_count_is_lower_bound": self.lower_bound_only,
+            "rank_is_upper_bound": self.lower_bound_only,
+            "self_stress_states_at_least": self.self_stress_states,
+            "self_stress_count_is_lower_bound": self.self_stress_is_lower_bound,
             "connected_parts": self.components,
             "method": self.method,
             "evidence": self.evidence,

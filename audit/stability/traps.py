@@ -23,8 +23,12 @@ def find_traps(
     mech: int,
     s: int,
     labels: IntArray,
+    at_least: bool = False,
 ) -> tuple[Trap, ...]:
-    """The typical mistakes behind the mechanisms, each explained in words."""
+    """The typical mistakes behind the mechanisms, each explained in words.
+
+    ``at_least``: ``mech`` and ``s`` are lower bounds only (a capped numerical search).
+    """
     d, j = model.dim, model.n_nodes
     n_parts = int(labels.max()) + 1 if labels.size else 0
     need = 3 if d == 2 else 6
@@ -146,13 +150,14 @@ def find_traps(
         if mk.trap == "missing-diagonal":
             out.append(Trap("missing-diagonal", mk.description.split(" [")[0], nodes=mk.trap_nodes))
     if mech and maxwell >= 0:
+        bound = "at least " if at_least else ""
         says = "a statically determinate, stable structure" if maxwell == 0 else f"{maxwell} redundant component(s)"
         out.append(
             Trap(
                 "count-misleading",
                 f"Maxwell's count m + r − d·j = {maxwell} suggests {says}, but the rank of the equilibrium matrix "
-                f"shows {plural(mech, 'mechanism')} and {plural(s, 'state')} of self-stress: members (or "
-                "supports) are redundant in one place and missing in another",
+                f"shows {bound}{plural(mech, 'mechanism')} and {bound}{plural(s, 'state')} of self-stress: "
+                "members (or supports) are redundant in one place and missing in another",
             )
         )
     return tuple(out)
