@@ -44,7 +44,13 @@ def _raw_norms(model: Model, cons: Constraints) -> FloatArray:
         if raw is None:
             raw = [Fraction(float(c)) for c in cons.dirs[i]]
         v = int_row(raw)
-        out[i] = math.sqrt(sum(float(c) ** 2 for c in v))
+        # scaled by a power of two so that integers beyond float range still give the (relative) norm
+        shift = max(max((abs(c).bit_length() for c in v), default=0) - 900, 0)
+        norm = math.sqrt(sum(float(c >> shift if c >= 0 else -((-c) >> shift)) ** 2 for c in v)) or 1.0
+        try:
+            out[i] = math.ldexp(norm, shift)
+        except OverflowError:  # beyond float range: only the direction matters for naming the state
+            out[i] = norm
     return out
 
 
