@@ -94,11 +94,15 @@ def test_console_capture_sees_an_error(tmp_path: Path) -> None:
 
 
 def test_console_capture_sees_a_blocked_fetch(tmp_path: Path) -> None:
-    """Our Content-Security-Policy blocks a network fetch, and the browser says so on the console."""
+    """Our Content-Security-Policy blocks a network fetch, and the browser says so on the console.
+
+    The address is on the loopback (port 9, nothing listening), so even a failed policy sends nothing off
+    this machine.
+    """
     page = tmp_path / "fetch.html"
     page.write_text(
         "<!DOCTYPE html><html><head><meta http-equiv='Content-Security-Policy' content=\"default-src 'none'\">"
-        "</head><body><img src='http://192.0.2.1/x.png'></body></html>"
+        "</head><body><img src='http://127.0.0.1:9/x.png'></body></html>"
     )
     proc = _browse(page, tmp_path, "--dump-dom")
     assert _console_lines(proc.stderr), proc.stderr[-2000:]
