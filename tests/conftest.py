@@ -7,12 +7,20 @@ Hypothesis strategies for random trusses live in ``tests/strategies.py``
 from __future__ import annotations
 
 import json
+import os
 from collections.abc import Callable
 from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
 import pytest
+from hypothesis import settings
+
+# Under CI (CI=true) every property test draws the same examples on every run, so a green run is
+# reproducible and a red one is not luck; locally the examples are random, to keep finding new ones.
+settings.register_profile("ci", derandomize=True, deadline=None, print_blob=True)
+if os.environ.get("CI"):
+    settings.load_profile("ci")
 
 PUBLISHED_DIR = Path(__file__).resolve().parent.parent / "reference_cases" / "published"
 

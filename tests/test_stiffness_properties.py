@@ -27,8 +27,9 @@ from strategies import plane_trusses, space_trusses, to_model
 from audit.solve import solve_model
 from audit.stiffness import assemble, compatibility_matrix, element_matrices
 
-PROPERTY = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-FEW = settings(max_examples=20, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+# derandomized: CI runs the same examples every time (a failure found offline is added as an explicit example)
+PROPERTY = settings(max_examples=40, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+FEW = settings(max_examples=20, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 
 any_truss = st.one_of(plane_trusses(), space_trusses())
 loaded_truss = st.one_of(
@@ -141,7 +142,7 @@ def test_reactions_balance_the_loads(doc: dict[str, Any]) -> None:
     solution = solve_model(model)
     for lc, case in zip(model.load_cases, solution.cases, strict=False):
         total = case.reactions + lc.loads  # (n, dim)
-        scale = max(np.abs(case.reactions).max(), np.abs(lc.loads).max(), np.abs(case.axial_forces).max(), 1e-300)
+        scale = _force_scale(model, case, lc.loads)
         assert np.abs(total.sum(axis=0)).max() <= 1e-9 * scale
         r = model.coords - model.coords.mean(axis=0)
         arm = np.abs(r).max()
@@ -167,16 +168,36 @@ def test_combination_is_the_factored_sum(doc: dict[str, Any], data: st.DataObjec
     solution = solve_model(model)
     comb = solution.case("COMB")
     assert comb is not None
-    for field in ("displacements", "axial_forces", "reactions"):
-        want = sum(factors[c.id] * getattr(solution.case(c.id), field) for c in model.load_cases)
-        got = getattr(comb, field)
-        assert np.abs(got - want).max() <= 1e-12 * max(np.abs(want).max(), 1e-300) + 1e-300
     single = to_model(dict(doc, load_cases=[_factored_case(doc, factors)], combinations=[]))
     alone = solve_model(single).cases[0]
-    for field in ("displacements", "axial_forces", "reactions"):
-        want = getattr(alone, field)
-        scale = max(np.abs(want).max(), 1e-300)
-        assert np.abs(getattr(comb, field) - want).max() <= 1e-9 * scale
+    # the scales from both solutions: a case of pure rigid settlement or free thermal strain carries no force,
+    # and its forces are rounding noise in either solution alone
+    force_scale = max(
+        _force_scale(single, alone, single.load_cases[0].loads),
+        _force_scale(single, comb, single.load_cases[0].loads),
+    )
+    scales = {
+        "displacements": max(np.abs(alone.displacements).max(), np.abs(comb.displacements).max()),
+        "axial_forces": force_scale,
+        "reactions": force_scale,
+    }
+    for field, scale in scales.items():
+        want = sum(factors[c.id] * getattr(solution.case(c.id), field) for c in model.load_cases)
+        assert np.abs(getattr(comb, field) - want).max() <= 1e-12 * scale
+        assert np.abs(getattr(comb, field) - getattr(alone, field)).max() <= 1e-9 * scale
+
+
+def _force_scale(model: Any, case: Any, loads: np.ndarray) -> float:
+    """The force scale of a solved case: its largest load, reaction or member force, or max(EA/L)·max|u|.
+
+    The last term is the force that the displacements would cause in the
+    stiffest member; it keeps the scale meaningful in a case that carries no
+    force at all (a rigid-body settlement), where rounding noise alone remains.
+    """
+    k_u = float(np.max(model.axial_stiffness())) * float(np.abs(case.displacements).max())
+    return max(
+        float(np.abs(loads).max()), float(np.abs(case.reactions).max()), float(np.abs(case.axial_forces).max()), k_u
+    )
 
 
 def _factored_case(doc: dict[str, Any], factors: dict[str, float]) -> dict[str, Any]:
