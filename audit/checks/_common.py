@@ -15,7 +15,7 @@ from numpy.typing import NDArray
 
 from audit import stiffness
 from audit.context import Context
-from audit.findings import CheckOutcome, Finding, Status
+from audit.findings import CheckOutcome, Finding, Location, Status
 from audit.model import AXES, CaseResults, FloatArray, Model
 from audit.tolerances import Tolerances
 
@@ -34,6 +34,14 @@ def fmt(x: float) -> str:
 
 def axis_name(a: int) -> str:
     return AXES[a]
+
+
+def flat_location(model: Model, kind: str, i: int) -> Location:
+    """Location of flat index ``i`` of a per-member (``kind == "axial_force"``) or per-node-and-axis array."""
+    if kind == "axial_force":
+        return Location(member=model.member_ids[i])
+    node, a = divmod(i, model.dim)
+    return Location(node=model.node_ids[node], axis=AXES[a])
 
 
 # ------------------------------------------------------------------ cases

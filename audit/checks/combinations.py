@@ -20,8 +20,8 @@ import numpy as np
 from audit.checks import _common as cm
 from audit.checks.recompute import compare_case, quantity_name
 from audit.context import Context
-from audit.findings import CheckOutcome, Finding, Location, Severity
-from audit.model import AXES, CaseResults, FloatArray, Model
+from audit.findings import CheckOutcome, Finding, Severity
+from audit.model import CaseResults, FloatArray
 from audit.rules import Rule
 
 CHECK_ID = "combinations"
@@ -77,13 +77,6 @@ def _values(cr: CaseResults, attr: str, has: str) -> FloatArray:
     return v if getattr(cr, has) else np.full(v.shape, np.nan)
 
 
-def _location(model: Model, kind: str, i: int) -> Location:
-    if kind == "axial_force":
-        return Location(member=model.member_ids[i])
-    node, a = divmod(i, model.dim)
-    return Location(node=model.node_ids[node], axis=AXES[a])
-
-
 def _check(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     model, tol = ctx.model, ctx.tolerances
     assert ctx.results is not None
@@ -130,7 +123,7 @@ def _check(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         bad = np.flatnonzero(j.failed)
         bad = bad[np.argsort(-np.abs(j.difference[bad]) / np.maximum(j.allowed[bad], 1e-300), kind="stable")]
         for i in cm.listed(bad.tolist())[0]:
-            loc = _location(model, kind, i)
+            loc = cm.flat_location(model, kind, i)
             findings.append(
                 Finding(
                     code="CB101",

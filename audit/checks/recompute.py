@@ -16,7 +16,7 @@ import numpy as np
 from audit.checks import _common as cm
 from audit.context import Context
 from audit.findings import CheckOutcome, Finding, Location, Severity
-from audit.model import AXES, CaseResults, Model
+from audit.model import CaseResults, Model
 from audit.rules import Rule
 
 CHECK_ID = "recompute"
@@ -80,13 +80,6 @@ def quantity_name(kind: str, loc: Location) -> str:
     return kind.replace("_", " ") + (f" {loc.axis}" if loc.axis else "")
 
 
-def _location(model: Model, kind: str, i: int) -> Location:
-    if kind == "axial_force":
-        return Location(member=model.member_ids[i])
-    node, a = divmod(i, model.dim)
-    return Location(node=model.node_ids[node], axis=AXES[a])
-
-
 def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     model, tol = ctx.model, ctx.tolerances
     ref = cm.reference(ctx, cid)
@@ -109,7 +102,7 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         ratio = np.abs(j.difference.ravel()[flat_checked]) / np.maximum(j.allowed.ravel()[flat_checked], 1e-300)
         order = flat_checked[np.argsort(-ratio, kind="stable")]
         for i in order[:TABLE_ROWS].tolist():
-            loc = _location(model, kind, i)
+            loc = cm.flat_location(model, kind, i)
             rows.append(
                 (
                     float(abs(j.difference.ravel()[i]) / max(float(j.allowed.ravel()[i]), 1e-300)),
@@ -130,7 +123,7 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         not_listed += left
         for i in kept:
             rep, exp, diff, al = (float(a.ravel()[i]) for a in (j.reported, j.expected, j.difference, j.allowed))
-            loc = _location(model, kind, i)
+            loc = cm.flat_location(model, kind, i)
             rel = f" ({100 * abs(diff) / abs(exp):.3g} %)" if exp else ""
             findings.append(
                 Finding(
@@ -192,7 +185,7 @@ def _too_coarse(model: Model, cid: str, js: dict[str, cm.Judgement], units: dict
         idx = np.flatnonzero(coarse)
         kept, left = cm.listed(idx[np.argsort(-q[idx], kind="stable")].tolist())
         for i in kept:
-            loc = _location(model, kind, i)
+            loc = cm.flat_location(model, kind, i)
             rep, exp = float(j.reported.ravel()[i]), float(j.expected.ravel()[i])
             out.append(
                 Finding(

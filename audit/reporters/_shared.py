@@ -212,16 +212,6 @@ def extra_data(f: Finding, skip: tuple[str, ...] = ("quantity", "quantum", "with
     return [(str(k), fmt_value(v)) for k, v in f.data if k not in skip]
 
 
-def outcome_note(o: CheckOutcome, crashed: tuple[str, ...] = ()) -> str:
-    """The reason (why not run, or the check's one-line summary), then its summary figures."""
-    parts = [o.reason] if o.reason else []
-    if not parts and o.check in crashed:
-        parts.append("the check crashed")
-    if o.summary:
-        parts.append(", ".join(f"{k} = {fmt_value(v)}" for k, v in o.summary))
-    return "; ".join(parts)
-
-
 def outcome_counts(o: CheckOutcome) -> dict[str, int]:
     counts = {s.label: 0 for s in sorted(Severity, reverse=True)}
     for f in o.findings:
@@ -308,75 +298,6 @@ def mechanism_details(stability: Mapping[str, Any]) -> list[dict[str, Any]]:
             mode = next((item[k] for k in ("mode", "vector", "displacements", "movement") if k in item), None)
             out.append({"description": desc, "mode": mode, "raw": dict(item)})
     return out
-
-
-def stability_sentences(stability: Mapping[str, Any]) -> list[str]:
-    """The stability block in words: classification, Maxwell count, rank, mechanisms, self-stress, proof."""
-    if not stability:
-        return ["The stability analysis did not report anything."]
-    out: list[str] = []
-    cls = stability.get("classification")
-    words = {
-        "stable-determinate": "Stable and statically determinate.",
-        "stable-indeterminate": "Stable and statically indeterminate.",
-        "unstable": "Unstable: the model can move without straining a member.",
-    }
-    if cls is not None:
-        out.append(words.get(str(cls), f"Classification: {cls}."))
-    if stability.get("summary"):
-        out.append(str(stability["summary"]).rstrip(".") + ".")
-    mc = stability.get("maxwell_count")
-    if is_number(mc):
-        out.append(f"Maxwell count m + r − d·j = {fmt_number(mc)}.")
-    rank = stability.get("rank")
-    mech = stability.get("mechanisms")
-    sss = stability.get("self_stress_states")
-    proof = stability.get("proof")
-    pieces = []
-    if is_number(rank):
-        pieces.append(f"the equilibrium matrix has rank {fmt_number(rank)}")
-    if is_number(mech):
-        n_mech = int(float(mech))  # type: ignore[arg-type]
-        pieces.append("no mechanism" if n_mech == 0 else _plural(n_mech, "independent mechanism"))
-    if is_number(sss):
-        n_sss = int(float(sss))  # type: ignore[arg-type]
-        pieces.append(
-            "no state of self-stress" if n_sss == 0 else _plural(n_sss, "independent state") + " of self-stress"
-        )
-    if pieces:
-        out.append(pieces[0][0].upper() + pieces[0][1:] + ("; " + "; ".join(pieces[1:]) if pieces[1:] else "") + ".")
-    if proof is not None:
-        how = {"exact": "in exact arithmetic", "numerical": "numerically (with a stated gap, not a proof)"}
-        out.append(f"Rank established {how.get(str(proof), str(proof))}.")
-    for i, detail in enumerate(mechanism_details(stability), 1):
-        if detail["description"]:
-            out.append(f"Mechanism {i}: {detail['description'].rstrip('.')}.")
-    return out
-
-
-def stability_extras(stability: Mapping[str, Any]) -> list[tuple[str, str]]:
-    """Stability fields not already put into words, as (key, text) pairs, sorted."""
-    known = {
-        "classification",
-        "summary",
-        "maxwell_count",
-        "rank",
-        "mechanisms",
-        "self_stress_states",
-        "proof",
-        "mechanisms_detail",
-        "mechanism_details",
-        "mechanism_modes",
-        "mechanisms_details",
-    }
-    return [(str(k), fmt_value(v)) for k, v in sorted(stability.items(), key=lambda kv: str(kv[0])) if k not in known]
-
-
-def precision_lines(precision: Mapping[str, Any]) -> list[tuple[str, str]]:
-    """The precision / proof block as (key, text): status and reason first, the rest sorted."""
-    first = [k for k in ("status", "reason") if k in precision]
-    rest = sorted((k for k in precision if k not in first), key=str)
-    return [(str(k), fmt_value(precision[k])) for k in [*first, *rest]]
 
 
 def tolerance_lines(tolerances: Mapping[str, Any]) -> list[tuple[str, str]]:
