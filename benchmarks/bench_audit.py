@@ -169,7 +169,7 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--sizes", nargs="+", default=["grid2d:1e3", "grid2d:1e4", "lattice3d:1e3", "lattice3d:1e4"])
     p.add_argument("--repeat", type=int, default=3)
     p.add_argument("--cases", type=int, default=1, help="load cases in each generated model")
-    p.add_argument("--reader", choices=["exchange", "fastread"], default="exchange")
+    p.add_argument("--reader", choices=["exchange"], default="exchange")
     p.add_argument("--timeout", type=float, default=1800)
     p.add_argument("--json", metavar="PATH", help="also write the raw runs as JSON")
     p.add_argument("--child", nargs="+", help=argparse.SUPPRESS)
