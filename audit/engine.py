@@ -79,7 +79,10 @@ def build_context(
     solution = None
     if factor is not None and stab.stable:
         say("recomputing displacements, forces and reactions")
-        solution = solve_with(model, system, factor, cond)
+        try:
+            solution = solve_with(model, system, factor, cond)
+        except UnsolvableError as exc:
+            reason = exc.message
     elif not reason:
         reason = "the model is unstable: " + stab.summary()
     prec = None

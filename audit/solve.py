@@ -290,6 +290,8 @@ def solve_model(model: Model, backend: str = "auto") -> Solution:
 
 def solve_with(model: Model, system: System, factor: linsolve.Factor, cond: float = float("nan")) -> Solution:
     """Solve all cases with an existing factor."""
+    if model.is_nonlinear:
+        raise UnsolvableError("tension-only or compression-only members need the non-linear solver (not yet built)")
     nc = len(model.load_cases)
     nd = model.n_dofs
     if nc == 0:
