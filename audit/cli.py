@@ -4,7 +4,7 @@ Commands
 --------
 ``truss-audit check MODEL [RESULTS] ...``   audit reported results (exit 0 pass, 1 fail)
 ``truss-audit solve MODEL -o RESULTS``      solve every case and write a results file
-``truss-audit rules``                       list every finding code from the registry
+``truss-audit explain [CODE]``               the finding codes, or what one code establishes and how to act
 
 Exit codes (documented in the README):
 
@@ -83,10 +83,10 @@ def _parser() -> _Parser:
     c.add_argument("--policy", metavar="PATH", help="JSON tolerance policy file")
     c.add_argument("--tol", action="append", default=[], metavar="NAME=VALUE", help="override one tolerance")
     c.add_argument(
-        "--select", action="append", default=[], metavar="CODE", help="keep only findings with these code prefixes"
+        "--only", action="append", default=[], metavar="CODE", help="keep only findings whose code starts with CODE"
     )
     c.add_argument(
-        "--ignore", action="append", default=[], metavar="CODE", help="drop findings with these code prefixes"
+        "--skip", action="append", default=[], metavar="CODE", help="drop findings whose code starts with CODE"
     )
     c.add_argument("--digits", type=int, default=30, help="significant digits of the high-precision recomputation")
     c.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
@@ -102,7 +102,8 @@ def _parser() -> _Parser:
     s.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
     s.add_argument("--timings", action="store_true", help="print the time of each stage to stderr")
 
-    sub.add_parser("rules", help="list every finding code with its severity and summary")
+    e = sub.add_parser("explain", help="list the finding codes, or explain one code")
+    e.add_argument("code", nargs="?", metavar="CODE", help="a finding code (e.g. EQ101) or a code prefix (e.g. ST)")
     return p
 
 
@@ -264,8 +265,8 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
             results,
             tolerances=tol,
             fail_on=Severity.parse(args.fail_on),
-            select=tuple(args.select),
-            ignore=tuple(args.ignore),
+            only=tuple(args.only),
+            skip=tuple(args.skip),
             digits=args.digits,
             backend=args.solver,
             inputs=tuple((Path(p).name, _sha256(p)) for p in inputs),
@@ -313,8 +314,8 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         jobs=max(1, args.jobs),
         audit_kwargs={
             "fail_on": args.fail_on,
-            "select": tuple(args.select),
-            "ignore": tuple(args.ignore),
+            "only": tuple(args.only),
+            "skip": tuple(args.skip),
             "digits": args.digits,
             "backend": args.solver,
             "policy": args.policy,
@@ -365,12 +366,33 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     return EXIT_PASS
 
 
-def _rules(out: TextIO) -> int:
+def _explain(code: str | None, out: TextIO) -> int:
+    """The table of codes (all, or those starting with a prefix), or one code explained, from the registry."""
+    import textwrap
+
     from tabulate import tabulate
 
     from audit.engine import registry
 
-    rows = [(r.code, r.severity.label, r.family, r.summary) for r in registry().values()]
+    reg = registry()
+    wanted = (code or "").strip().upper()
+    rule = reg.get(wanted)
+    if rule is not None:
+        out.write(f"{rule.code} ({rule.severity.label}, {rule.family} check): {rule.summary}\n")
+        for title, body in (
+            ("What it establishes", rule.establishes),
+            ("Example finding", rule.example),
+            ("How to act on it", rule.action),
+        ):
+            wrapped = textwrap.fill(body, width=88, initial_indent="  ", subsequent_indent="  ")
+            out.write(f"\n{title}:\n{wrapped}\n")
+        return EXIT_PASS
+    rows = [(r.code, r.severity.label, r.family, r.summary) for r in reg.values() if r.code.startswith(wanted)]
+    if not rows:
+        raise _UsageError(
+            f"explain: no finding code is or starts with {code!r}; give a code such as EQ101 or a prefix such as ST "
+            "(truss-audit explain lists them all)"
+        )
     out.write(tabulate(rows, headers=["code", "severity", "check", "summary"], tablefmt="simple") + "\n")
     return EXIT_PASS
 
@@ -386,8 +408,8 @@ def main(argv: Sequence[str] | None = None, out: TextIO | None = None, err: Text
             return _check(args, out, err)
         if args.command == "solve":
             return _solve(args, out, err)
-        if args.command == "rules":
-            return _rules(out)
+        if args.command == "explain":
+            return _explain(args.code, out)
         _parser().print_help(out)
         return EXIT_INPUT
     except SystemExit as exc:  # argparse's --help and --version

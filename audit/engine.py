@@ -1,7 +1,7 @@
 """Runs the checks on one model: builds the context, wraps crashing checks, filters.
 
 Data flow: model -> system (assembly, supports) -> factor -> stability ->
-solution -> precision -> checks -> outcomes -> filter (select / ignore) ->
+solution -> precision -> checks -> outcomes -> filter (only / skip) ->
 AuditResult.  No printing and no exit codes here.
 """
 
@@ -162,22 +162,23 @@ def run_checks(
     return tuple(outcomes), tuple(crashed)
 
 
-def _keep(code: str, select: tuple[str, ...], ignore: tuple[str, ...]) -> bool:
-    if select and not any(code.startswith(s) for s in select):
+def _keep(code: str, only: tuple[str, ...], skip: tuple[str, ...]) -> bool:
+    if only and not any(code.startswith(s) for s in only):
         return False
-    return not any(code.startswith(i) for i in ignore)
+    return not any(code.startswith(i) for i in skip)
 
 
 def filter_outcomes(
-    outcomes: tuple[CheckOutcome, ...], select: tuple[str, ...] = (), ignore: tuple[str, ...] = ()
+    outcomes: tuple[CheckOutcome, ...], only: tuple[str, ...] = (), skip: tuple[str, ...] = ()
 ) -> tuple[CheckOutcome, ...]:
-    """The decision step after all checks ran: drop findings whose codes are not selected or are ignored.
+    """The decision step after all checks ran: keep only the findings whose codes start with one of ``only``
+    (all when empty) and drop those whose codes start with one of ``skip``.
 
     AU9xx (engine) findings are never dropped.
     """
     out = []
     for o in outcomes:
-        kept = tuple(f for f in o.findings if f.code.startswith("AU9") or _keep(f.code, select, ignore))
+        kept = tuple(f for f in o.findings if f.code.startswith("AU9") or _keep(f.code, only, skip))
         out.append(replace(o, findings=kept))
     return tuple(out)
 
@@ -208,8 +209,8 @@ def audit_with_context(
     *,
     tolerances: Tolerances | None = None,
     fail_on: Severity = Severity.ERROR,
-    select: tuple[str, ...] = (),
-    ignore: tuple[str, ...] = (),
+    only: tuple[str, ...] = (),
+    skip: tuple[str, ...] = (),
     digits: int = 30,
     backend: str = "auto",
     inputs: tuple[tuple[str, str], ...] = (),
@@ -264,7 +265,7 @@ def audit_with_context(
             ),
             *outcomes,
         )
-    outcomes = filter_outcomes(outcomes, select, ignore)
+    outcomes = filter_outcomes(outcomes, only, skip)
     result = AuditResult(
         title=model.title,
         outcomes=outcomes,
