@@ -31,6 +31,7 @@ from audit import linsolve, stiffness
 from audit.errors import UnsolvableError
 from audit.model import AXES, FloatArray, IntArray, Model
 from audit.selfweight import self_weight_loads
+from audit.timing import Timings, stage
 
 #: a scaled restrained K whose estimated 1-norm condition exceeds this is refused as singular
 SINGULAR_CONDITION = 1.0e14
@@ -281,11 +282,17 @@ def _inverse_one_norm(factor: linsolve.Factor, dsq: FloatArray, max_iter: int = 
     return max(est, alt)
 
 
-def solve_model(model: Model, backend: str = "auto") -> Solution:
-    """Solve every load case and combination.  Raises UnsolvableError for a mechanism."""
-    system = build_system(model)
-    factor, cond = factorize_system(model, system, backend)
-    return solve_with(model, system, factor, cond)
+def solve_model(model: Model, backend: str = "auto", timings: Timings | None = None) -> Solution:
+    """Solve every load case and combination.  Raises UnsolvableError for a mechanism.
+
+    ``timings`` (optional) receives the stages ``build``, ``factorise`` and ``recompute``.
+    """
+    with stage(timings, "build"):
+        system = build_system(model)
+    with stage(timings, "factorise"):
+        factor, cond = factorize_system(model, system, backend)
+    with stage(timings, "recompute"):
+        return solve_with(model, system, factor, cond)
 
 
 def solve_with(model: Model, system: System, factor: linsolve.Factor, cond: float = float("nan")) -> Solution:
