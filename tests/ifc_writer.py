@@ -31,6 +31,10 @@ SYSTEMS: dict[str, dict[str, Any]] = {
 AXES = ("x", "y", "z")
 
 
+BEHAVIOUR = {"linear": "PIN_JOINED_MEMBER", "tension_only": "TENSION_MEMBER", "compression_only": "COMPRESSION_MEMBER"}
+GRAVITY = Fraction("9.80665")
+
+
 class NotRepresentableError(ValueError):
     """The model uses something IFC has no entity for (a length error, non-orthogonal restraints)."""
 
@@ -205,6 +209,12 @@ def write_ifc(doc: dict[str, Any], system: str = "si", *, plane_type: bool = Tru
                 props.append(c("IfcPropertySingleValue", Name="ThermalExpansionCoefficient",
                                NominalValue=f.create_entity("IfcThermalExpansionCoefficientMeasure", a)))  # fmt: skip
             c("IfcMaterialProperties", Name="Pset_MaterialMechanical", Properties=props, Material=m)
+            if "unit_weight" in entry:  # weight per volume -> mass density in kg/m^3 (standard gravity)
+                rho = float(Fraction(str(entry["unit_weight"])) * FORCE_UNITS[units["force"]]
+                            / LENGTH_UNITS[units["length"]] ** 3 / GRAVITY)  # fmt: skip
+                density = f.create_entity("IfcMassDensityMeasure", rho)
+                c("IfcMaterialProperties", Name="Pset_MaterialCommon", Material=m,
+                  Properties=[c("IfcPropertySingleValue", Name="MassDensity", NominalValue=density)])  # fmt: skip
             materials[key] = m
         return materials[key]
 
@@ -226,7 +236,7 @@ def write_ifc(doc: dict[str, Any], system: str = "si", *, plane_type: bool = Tru
         skey = m["section"] if "A" not in m and "section" in m else f"A of {mid}"
         mat_entry = dict(doc.get("materials", {}).get(m.get("material"), {}))
         if "E" in m:
-            mat_entry = {"E": m["E"], **({"alpha": m["alpha"]} if "alpha" in m else {})}
+            mat_entry = {k: m[k] for k in ("E", "alpha", "unit_weight") if k in m}
         sec_entry = {"A": m["A"]} if "A" in m else doc["sections"][m["section"]]
         s, e = node_id(m["start"]), node_id(m["end"])
         edge = c("IfcEdge", vertices[s], vertices[e])
@@ -239,7 +249,7 @@ def write_ifc(doc: dict[str, Any], system: str = "si", *, plane_type: bool = Tru
         )
         shape = c("IfcProductDefinitionShape", Representations=[rep])
         member = w.root("IfcStructuralCurveMember", Name=mid, ObjectPlacement=placement,
-                        PredefinedType="PIN_JOINED_MEMBER", Representation=shape,
+                        PredefinedType=BEHAVIOUR.get(m.get("behaviour", "linear")), Representation=shape,
                         Axis=c("IfcDirection", tuple(axis)))  # fmt: skip
         for end in (s, e):
             w.root(
@@ -269,6 +279,12 @@ def write_ifc(doc: dict[str, Any], system: str = "si", *, plane_type: bool = Tru
         g = w.root("IfcStructuralLoadCase", Name=str(lc["id"]), Description=lc.get("title"), PredefinedType="LOAD_CASE",
                    ActionType="NOTDEFINED", ActionSource="NOTDEFINED")  # fmt: skip
         groups[str(lc["id"])] = g
+        if "self_weight" in lc:
+            sw = lc["self_weight"]
+            d = np.array(
+                [float(v) for v in sw.get("direction", [0, -1] if dim == 2 else [0, 0, -1])] + [0.0] * (3 - dim)
+            )
+            g.SelfWeightCoefficients = tuple(float(v) for v in float(sw["factor"]) * d / np.linalg.norm(d))
         acts = []
         for ld in lc.get("loads", []):
             force = c(

@@ -206,3 +206,23 @@ def test_loaded_by_only_combinations_finds_cases_by_type(tmp_path: Path) -> None
     assert [g.Name for g in model.LoadedBy] == ["ULS-1"]
     read = read_ifc(path)
     assert [c.id for c in read.model.load_cases] == ["dead", "crowd", "sun"]
+
+
+@pytest.mark.parametrize("system", SYSTEMS)
+def test_unit_weight_self_weight_and_behaviour(system: str, tmp_path: Path) -> None:
+    """Pset_MaterialCommon.MassDensity (times standard gravity 9.80665 m/s^2, exact by definition) is the unit
+    weight, SelfWeightCoefficients the self weight, a TENSION_MEMBER a tension-only member (FORMAT.md additions).
+    Steel at 77 kN/m^3 is common practice."""
+    doc = json.loads((ROOT / "reference_cases/demo/footbridge.json").read_text(encoding="utf-8"))
+    doc["materials"]["S355"]["unit_weight"] = 77
+    doc["load_cases"][0]["self_weight"] = {"factor": 1.35}
+    doc["members"][17]["behaviour"] = "tension_only"
+    want = exchange.parse_model(json.dumps(doc))
+    got = read_ifc(write_case(doc, system, tmp_path)).model
+    lf = float(LENGTH_UNITS[got.units.length])
+    ff = float(FORCE_UNITS[got.units.force])
+    np.testing.assert_allclose(got.unit_weight * ff / lf**3, 77_000.0, rtol=RTOL)
+    dead = got.load_cases[0]
+    assert dead.self_weight == pytest.approx(1.35, rel=RTOL)
+    np.testing.assert_allclose(dead.self_weight_direction, [0.0, -1.0], atol=1e-15)
+    assert got.behaviour.tolist() == want.behaviour.tolist()

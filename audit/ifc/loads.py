@@ -36,6 +36,8 @@ class Action:
 class Case:
     entity: Any
     actions: list[Action] = field(default_factory=list)
+    #: (3,) global factors of the self weight (IfcStructuralLoadCase.SelfWeightCoefficients), or None
+    self_weight: np.ndarray | None = None
 
 
 @dataclass
@@ -182,6 +184,9 @@ def read_loads(model: Any, file: Any, joints: set[int], units: Units, placements
             load.combos.append(combo)
         elif t == "LOAD_CASE" or actions_of(g, {g.id()}):
             case = Case(g)
+            coefficients = getattr(g, "SelfWeightCoefficients", None)
+            if coefficients and any(coefficients):
+                case.self_weight = np.array([float(c) for c in coefficients], dtype=np.float64)
             for act in actions_of(g, {g.id()}):
                 a = read_action(act, units, placements, issues, load)
                 if a is None:

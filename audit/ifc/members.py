@@ -16,10 +16,14 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from fractions import Fraction
 from typing import Any
 
 from .places import Issues, label
-from .units import AREA, MODULUS, PER_DEGREE, Units, number_text, resolve
+from .units import AREA, DENSITY, GRAVITY, MODULUS, PER_DEGREE, UNIT_WEIGHT, Unit, Units, number_text, resolve
+
+#: curve member types that carry one sense of axial force only (FORMAT.md additions: ``behaviour``)
+BEHAVIOUR = {"CABLE": "tension_only", "TENSION_MEMBER": "tension_only", "COMPRESSION_MEMBER": "compression_only"}
 
 
 @dataclass
@@ -89,6 +93,19 @@ def _quantity(prop: Any, dim: tuple[int, int, int, int], unit_type: str, units: 
     return number_text(float(value), units.scale(dim, unit_type, own))
 
 
+def _unit_weight(prop: Any, units: Units, issues: Issues) -> bytes | None:
+    """Weight per volume from ``Pset_MaterialCommon.MassDensity``: density times standard gravity."""
+    value = getattr(prop.NominalValue, "wrappedValue", None)
+    if not isinstance(value, (int, float)) or isinstance(value, bool):
+        issues.problem(prop, "is not a number")
+        return None
+    own = (
+        resolve(prop.Unit, issues) if getattr(prop, "Unit", None) is not None else units.assigned.get("MASSDENSITYUNIT")
+    )
+    density = own.factor if own is not None and own.dim == DENSITY else Fraction(1)  # kg/m^3 when none is assigned
+    return number_text(float(value), units.scale(UNIT_WEIGHT, None, Unit(density * GRAVITY, UNIT_WEIGHT)))
+
+
 def read_members(
     members: list[Any], ends: Callable[[Any], tuple[str, str] | None], units: Units, issues: Issues
 ) -> MemberRead:
@@ -102,12 +119,13 @@ def read_members(
             issues.problem(member, "has no Name (the member's id)")
         if str(member.PredefinedType) == "RIGID_JOINED_MEMBER":
             out.rigid.append(member)
-        elif str(member.PredefinedType) in ("CABLE", "TENSION_MEMBER", "COMPRESSION_MEMBER"):
-            out.kinds.setdefault(str(member.PredefinedType), []).append(member)
         both = ends(member)
         row: dict[str, Any] = {"id": name or f"#{member.id()}"}
         if both is not None:
             row["start"], row["end"] = both
+        if str(member.PredefinedType) in BEHAVIOUR:
+            out.kinds.setdefault(str(member.PredefinedType), []).append(member)
+            row["behaviour"] = BEHAVIOUR[str(member.PredefinedType)]
         profile = _profile_of(member)
         if isinstance(profile, tuple):
             issues.problem(member, f"its material profile set {label(profile[1])} does not hold exactly one profile")
@@ -138,6 +156,11 @@ def read_members(
                         )
                         if a is not None:
                             entry["alpha"] = a
+                    density = _pset(material, "Pset_MaterialCommon").get("MassDensity")
+                    if density is not None:
+                        w = _unit_weight(density, units, issues)
+                        if w is not None:
+                            entry["unit_weight"] = w
                     out.materials[key] = entry
                     out.material_entity[key] = material
                 if "E" not in out.materials[key]:

@@ -83,6 +83,15 @@ def _decide_frame(model: Any, joints: dict[int, Joint], supports: list[Support],
                     model,
                 )
                 return SPACE
+    weight = [c for c in loads.cases if c.self_weight is not None and across(c.self_weight, normal)[0]]
+    if weight and len(restrained_across) < len(joints):
+        issues.note(
+            NOTE_PLANE,
+            f"read as a space truss: the joints lie in the {plane_name} plane, but the self weight of "
+            f"{label(weight[0].entity)} acts across it and not every joint is restrained there",
+            model,
+        )
+        return SPACE
     frame = plane_frame(axis, float(points[0, axis]) if len(points) else 0.0)
     issues.note(
         NOTE_PLANE,
@@ -200,6 +209,8 @@ def assemble(
             places.add(("load_cases", k, key, len(parts[key])), a.entity)
             parts[key].append(row)
         lc.update((key, rows) for key, rows in parts.items() if rows)
+        if case.self_weight is not None:
+            lc["self_weight"] = _self_weight(case, frame, issues)
         places.add(("load_cases", k), case.entity)
         cases.append(lc)
     if cases:
@@ -244,6 +255,19 @@ def assemble(
         )
     issues.raise_if_any()
     return _meaning(doc, places, issues)
+
+
+def _self_weight(case: Any, frame: Frame, issues: Issues) -> dict[str, Any]:
+    """``SelfWeightCoefficients`` (factors of the weight along global X, Y, Z) as a factor and a direction."""
+    c = case.self_weight
+    factor = float(np.linalg.norm(c))
+    inside = frame.rows @ c
+    if abs(float(np.linalg.norm(inside)) - factor) > 1e-12 * factor:
+        issues.problem(case.entity, "its SelfWeightCoefficients act across the plane of the plane truss")
+    return {
+        "factor": repr(factor).encode("ascii"),
+        "direction": [repr(float(v / factor)).encode("ascii") for v in inside],
+    }
 
 
 def _settlements(

@@ -32,6 +32,10 @@ MODULUS: Dim = (-1, 1, -2, 0)
 STIFFNESS: Dim = (0, 1, -2, 0)
 PER_DEGREE: Dim = (0, 0, 0, -1)
 TEMPERATURE: Dim = (0, 0, 0, 1)
+DENSITY: Dim = (-3, 1, 0, 0)
+UNIT_WEIGHT: Dim = (-2, 1, -2, 0)
+#: standard acceleration of gravity, m/s^2 (exact by definition; common practice for weight from mass density)
+GRAVITY = Fraction("9.80665")
 
 _PREFIX = {
     "EXA": 18, "PETA": 15, "TERA": 12, "GIGA": 9, "MEGA": 6, "KILO": 3, "HECTO": 2, "DECA": 1,
@@ -61,6 +65,7 @@ _TYPES: dict[str, Dim] = {
     "LINEARSTIFFNESSUNIT": STIFFNESS,
     "THERMALEXPANSIONCOEFFICIENTUNIT": PER_DEGREE,
     "THERMODYNAMICTEMPERATUREUNIT": TEMPERATURE,
+    "MASSDENSITYUNIT": DENSITY,
 }
 
 _REL = Fraction(1, 10**9)  # a conversion factor this close to a format unit's is that unit (files round them)
