@@ -40,7 +40,7 @@ CORPUS = ROOT / "fuzz" / "corpus"
 #: ``members[3].end``, ``cases.snow.axial_forces["99"]`` or ``["odd key"].x``
 PLACE = re.compile(
     r'^(\$|line \d+(, column \d+)?|([A-Za-z_][\w-]*|\["(\\.|[^"\\])*"\])(\[\d+\]|\.[\w-]+|\["(\\.|[^"\\])*"\])*)'
-    r"( \(([a-z ]+ ('[^']*'|\"[^\"]*\"))(, [a-z ]+ ('[^']*'|\"[^\"]*\"))*\))?(?=: )"
+    r"( \([a-z ]+ .*\))?(?=: )"
 )  # a JSON path, then the item it points at by id when it has one: members[3] (member '9')
 
 
