@@ -32,6 +32,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 from audit import __version__
 from audit.errors import InputError, Problem, UnsolvableError
 from audit.findings import AuditResult, Severity
+from audit.timing import Timings, stage
 
 if TYPE_CHECKING:
     from audit.model import Model
@@ -92,12 +93,14 @@ def _parser() -> _Parser:
     c.add_argument("--jobs", type=int, default=1, help="models audited in parallel (processes)")
     c.add_argument("--quiet", action="store_true", help="print only the verdict line; no progress display")
     c.add_argument("--colour", action="store_true", help="colour the terminal report")
+    c.add_argument("--timings", action="store_true", help="print the time of each stage to stderr (one model only)")
 
     s = sub.add_parser("solve", help="solve every load case and combination and write a results file")
     s.add_argument("model", metavar="MODEL")
     s.add_argument("-o", "--output", required=True, metavar="RESULTS", help="results file to write")
     s.add_argument("--digits", type=int, default=None, help="write N significant digits from the high-precision path")
     s.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
+    s.add_argument("--timings", action="store_true", help="print the time of each stage to stderr")
 
     e = sub.add_parser("explain", help="list the finding codes, or explain one code")
     e.add_argument("code", nargs="?", metavar="CODE", help="a finding code (e.g. EQ101) or a code prefix (e.g. ST)")
@@ -251,8 +254,10 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
     _check_outputs(outputs)
     refuse_same_path(outputs, inputs)
     tol = _tolerances(args)
-    model = exchange.load_model(model_path)
-    results = exchange.load_results(results_path, model) if results_path else None
+    timings = Timings() if args.timings else None
+    with stage(timings, "read"):
+        model = exchange.load_model(model_path)
+        results = exchange.load_results(results_path, model) if results_path else None
     progress = Progress(err, enabled=not args.quiet)
     try:
         result, ctx = engine.audit_with_context(
@@ -266,15 +271,19 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
             backend=args.solver,
             inputs=tuple((Path(p).name, _sha256(p)) for p in inputs),
             progress=progress.step,
+            timings=timings,
         )
     finally:
         progress.close()
-    ctx_extra = engine.drawing_context(ctx, args.deformed_case)
-    if args.quiet:
-        out.write(f"{model_path}: {result.verdict}\n")
-    else:
-        out.write(text.render(result, model, {"colour": args.colour}))
-    _write_outputs(args, result, model, ctx_extra)
+    with stage(timings, "report"):
+        ctx_extra = engine.drawing_context(ctx, args.deformed_case)
+        if args.quiet:
+            out.write(f"{model_path}: {result.verdict}\n")
+        else:
+            out.write(text.render(result, model, {"colour": args.colour}))
+        _write_outputs(args, result, model, ctx_extra)
+    if timings is not None:
+        err.write(timings.render())
     if result.crashed:
         return EXIT_CRASH
     return EXIT_FAIL if result.verdict == "fail" else EXIT_PASS
@@ -292,6 +301,8 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise _UsageError("no model files found")
     if len(pairs) == 1:
         return _check_one(args, pairs[0][0], pairs[0][1], out, err)
+    if args.timings:
+        raise _UsageError("--timings takes a single model (the stages of a batch overlap)")
     from audit import batch
 
     _check_outputs([args.json, args.junit])
@@ -326,24 +337,31 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     from audit.fileio import atomic_write_text, refuse_same_path
 
     refuse_same_path([args.output], [args.model])
-    model = exchange.load_model(args.model)
+    timings = Timings() if args.timings else None
+    with stage(timings, "read"):
+        model = exchange.load_model(args.model)
     if args.digits is not None:
         if args.digits < 1 or args.digits > 200:
             raise _UsageError("--digits must be between 1 and 200")
         from audit import precision
 
-        cases, _report = precision.solve_high_precision(model, args.digits)
-        text = exchange.dump_results(
-            model, cases, source=f"truss-audit {__version__} solve --digits {args.digits}", digits=args.digits
-        )
+        cases, _report = precision.solve_high_precision(model, args.digits, args.solver, timings=timings)
+        with stage(timings, "report"):
+            text = exchange.dump_results(
+                model, cases, source=f"truss-audit {__version__} solve --digits {args.digits}", digits=args.digits
+            )
     else:
         from audit.solve import solve_model
 
-        solution = solve_model(model, args.solver)
-        text = exchange.dump_results(
-            model, solution.cases, source=f"truss-audit {__version__} solve ({solution.backend})"
-        )
-    atomic_write_text(args.output, text)
+        solution = solve_model(model, args.solver, timings=timings)
+        with stage(timings, "report"):
+            text = exchange.dump_results(
+                model, solution.cases, source=f"truss-audit {__version__} solve ({solution.backend})"
+            )
+    with stage(timings, "report"):
+        atomic_write_text(args.output, text)
+    if timings is not None:
+        err.write(timings.render())
     out.write(f"wrote {args.output}: {len(model.load_cases)} load cases, {len(model.combinations)} combinations\n")
     return EXIT_PASS
 
