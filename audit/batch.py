@@ -33,6 +33,7 @@ from multiprocessing import get_context
 from pathlib import Path
 from typing import Any
 
+from audit.exchange.positions import ModelPositions
 from audit.findings import AuditResult, Severity
 
 #: exit code of each entry status (the same as the single-model command line)
@@ -58,6 +59,8 @@ class BatchEntry:
     json_report: str | None = None  #: the per-model JSON report (audit.reporters.json_report), when rendered
     junit_report: str | None = None  #: the per-model JUnit XML (audit.reporters.junit), when rendered
     model_facts: tuple[tuple[str, Any], ...] = ()  #: (key, value) from the model summary: dimensions, joints, ...
+    #: where the model's items are written in its file (for SARIF; only when asked, audit_kwargs["sarif"])
+    positions: ModelPositions | None = None
 
     @property
     def exit_code(self) -> int:
@@ -185,6 +188,11 @@ def audit_file(model_path: str, results_path: str | None, audit_kwargs: Mapping[
             time.perf_counter() - t0,
             error=f"{type(exc).__name__}: {exc} (at {where})",
         )
+    positions = None
+    if audit_kwargs.get("sarif"):
+        from audit.exchange.positions import locate_file
+
+        positions = locate_file(model_path)
     status = "crashed" if result.crashed else result.verdict
     facts = tuple(
         (k, result.model_summary[k]) for k in ("dimensions", "joints", "members") if k in result.model_summary
@@ -199,6 +207,7 @@ def audit_file(model_path: str, results_path: str | None, audit_kwargs: Mapping[
         json_report=json_text,
         junit_report=junit_text,
         model_facts=facts,
+        positions=positions,
     )
 
 
@@ -370,6 +379,18 @@ def _outcome_suite(e: BatchEntry, result: AuditResult) -> ET.Element:
     return suite
 
 
+def render_batch_sarif(batch: BatchResult, min_severity: Severity = Severity.INFO) -> str:
+    """SARIF 2.1.0 for the batch: one run, the models' findings in path order; unread models as notifications."""
+    from audit.engine import registry
+    from audit.reporters import sarif
+
+    models = []
+    for e in batch.entries:
+        problems = tuple(_problem_text(e, i) for i in range(len(e.problems))) or ((e.error,) if e.error else ())
+        models.append(sarif.SarifModel(e.path, e.result, e.positions, problems if e.result is None else ()))
+    return sarif.render(models, registry(), min_severity)
+
+
 def render_batch_junit(batch: BatchResult) -> str:
     """JUnit XML: the per-model suites (from audit.reporters.junit) under one ``testsuites`` root.
 
@@ -411,6 +432,7 @@ __all__ = [
     "exit_code",
     "render_batch_json",
     "render_batch_junit",
+    "render_batch_sarif",
     "render_summary",
     "run_batch",
 ]

@@ -71,6 +71,13 @@ def _parser() -> _Parser:
     c.add_argument("--results", metavar="PATH", help="results file for a single model (instead of a second positional)")
     c.add_argument("--json", metavar="PATH", help="write the report as JSON")
     c.add_argument("--junit", metavar="PATH", help="write JUnit XML (one test case per check and case)")
+    c.add_argument("--sarif", metavar="PATH", help="write SARIF 2.1.0 for code review (also for a batch)")
+    c.add_argument(
+        "--sarif-min",
+        choices=["info", "warning", "error"],
+        default="info",
+        help="lowest severity written to the SARIF file (default info: every finding)",
+    )
     c.add_argument("--markdown", metavar="PATH", help="write a Markdown report for a review record")
     c.add_argument("--html", metavar="PATH", help="write a self-contained HTML report with drawings")
     c.add_argument("--plot", metavar="DIR", help="write the drawings as SVG and PNG files into DIR")
@@ -175,10 +182,21 @@ def _expand_inputs(items: Sequence[str]) -> list[tuple[str, str | None]]:
     return out
 
 
-def _write_outputs(args: argparse.Namespace, result: AuditResult, model: Model, ctx_extra: dict[str, Any]) -> None:
+def _write_outputs(
+    args: argparse.Namespace, result: AuditResult, model: Model, ctx_extra: dict[str, Any], model_path: str
+) -> None:
     from audit.fileio import atomic_write_bytes, atomic_write_text
     from audit.reporters import html, json_report, junit, markdown
 
+    if args.sarif:
+        from audit.engine import registry
+        from audit.exchange.positions import locate_file
+        from audit.reporters import sarif
+
+        doc = sarif.render(
+            [sarif.SarifModel(model_path, result, locate_file(model_path))], registry(), Severity.parse(args.sarif_min)
+        )
+        atomic_write_text(args.sarif, doc)
     if args.json:
         atomic_write_text(args.json, json_report.render(result, model))
     if args.junit:
@@ -249,7 +267,7 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
     from audit.progress import Progress
     from audit.reporters import text
 
-    outputs = [p for p in (args.json, args.junit, args.markdown, args.html) if p]
+    outputs = [p for p in (args.json, args.junit, args.sarif, args.markdown, args.html) if p]
     inputs = [model_path] + ([results_path] if results_path else [])
     _check_outputs(outputs)
     refuse_same_path(outputs, inputs)
@@ -281,7 +299,7 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
             out.write(f"{model_path}: {result.verdict}\n")
         else:
             out.write(text.render(result, model, {"colour": args.colour}))
-        _write_outputs(args, result, model, ctx_extra)
+        _write_outputs(args, result, model, ctx_extra, model_path)
     if timings is not None:
         err.write(timings.render())
     if result.crashed:
@@ -305,10 +323,12 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise _UsageError("--timings takes a single model (the stages of a batch overlap)")
     from audit import batch
 
-    _check_outputs([args.json, args.junit])
+    _check_outputs([args.json, args.junit, args.sarif])
     _tolerances(args)
     if args.html or args.plot or args.markdown:
-        raise _UsageError("--html, --plot and --markdown take a single model; use --json or --junit for a batch")
+        raise _UsageError(
+            "--html, --plot and --markdown take a single model; use --json, --junit or --sarif for a batch"
+        )
     result = batch.run_batch(
         pairs,
         jobs=max(1, args.jobs),
@@ -320,6 +340,7 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             "backend": args.solver,
             "policy": args.policy,
             "tol": tuple(args.tol),
+            "sarif": bool(args.sarif),
         },
     )
     from audit.fileio import atomic_write_text
@@ -329,6 +350,8 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         atomic_write_text(args.json, batch.render_batch_json(result))
     if args.junit:
         atomic_write_text(args.junit, batch.render_batch_junit(result))
+    if args.sarif:
+        atomic_write_text(args.sarif, batch.render_batch_sarif(result, Severity.parse(args.sarif_min)))
     return batch.exit_code(result)
 
 
