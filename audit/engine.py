@@ -21,6 +21,7 @@ from audit.checks import (
     equilibrium,
     precision_check,
     recompute,
+    source_notes,
     stability_check,
     stiffness_health,
     supports,
@@ -30,10 +31,12 @@ from audit.errors import UnsolvableError
 from audit.findings import AuditResult, CheckOutcome, Finding, Location, Severity, Status
 from audit.model import Model, Results
 from audit.solve import build_system, factorize_system, solve_with
+from audit.sources import SourceNote
 from audit.tolerances import Tolerances
 
 #: the check families, in the order they run and are reported
 CHECK_MODULES: tuple[ModuleType, ...] = (
+    source_notes,
     stability_check,
     stiffness_health,
     equilibrium,
@@ -59,6 +62,7 @@ def build_context(
     digits: int = 30,
     backend: str = "auto",
     progress: Callable[[str], None] | None = None,
+    source_notes: tuple[SourceNote, ...] = (),
 ) -> Context:
     """Assemble, factorise, analyse stability, solve and refine: the immutable context."""
     say = progress or (lambda _s: None)
@@ -103,6 +107,7 @@ def build_context(
         unsolvable_reason=reason,
         precision=prec,
         precision_fault=prec_fault,
+        source_notes=tuple(source_notes),
     )
 
 
@@ -191,9 +196,21 @@ def audit_with_context(
     backend: str = "auto",
     inputs: tuple[tuple[str, str], ...] = (),
     progress: Callable[[str], None] | None = None,
+    source_notes: tuple[SourceNote, ...] = (),
 ) -> tuple[AuditResult, Context]:
-    """Audit ``model`` against ``results``; also return the context the checks read."""
-    ctx = build_context(model, results, tolerances=tolerances, digits=digits, backend=backend, progress=progress)
+    """Audit ``model`` against ``results``; also return the context the checks read.
+
+    ``source_notes`` are the source reader's remarks (:class:`audit.sources.SourceNote`), reported as findings.
+    """
+    ctx = build_context(
+        model,
+        results,
+        tolerances=tolerances,
+        digits=digits,
+        backend=backend,
+        progress=progress,
+        source_notes=source_notes,
+    )
     if progress is not None:
         progress("running the checks")
     outcomes, crashed = run_checks(ctx)
