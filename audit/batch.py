@@ -116,7 +116,7 @@ def _tolerances(kwargs: Mapping[str, Any]) -> Any:
 def _engine_kwargs(kwargs: Mapping[str, Any]) -> dict[str, Any]:
     """audit_kwargs of the batch -> keyword arguments of :func:`audit.engine.audit`."""
     out: dict[str, Any] = {}
-    for key in ("select", "ignore"):
+    for key in ("only", "skip"):
         if key in kwargs:
             out[key] = tuple(kwargs[key])
     for key in ("digits", "backend"):
@@ -222,7 +222,7 @@ def run_batch(
         models is not used.
     audit_kwargs
         Passed on to :func:`audit.engine.audit`: ``fail_on`` (a Severity or
-        its name), ``select``, ``ignore``, ``digits``, ``backend``, and the
+        its name), ``only``, ``skip``, ``digits``, ``backend``, and the
         tolerances, either ``tolerances`` (a Tolerances) or ``policy`` (a
         policy file) and ``tol`` (``NAME=VALUE`` overrides).
 
