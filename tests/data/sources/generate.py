@@ -45,7 +45,7 @@ def unread_and_converted() -> None:
     t["nodes"] = [[*t["nodes"][0], "label"]] + [[*row, f"joint {row[0]}"] for row in t["nodes"][1:]]
     t["checker notes"] = [["note"], ["received 14 March, revision C"]]
     # the section area in mm2 while the model's length unit is m: converted exactly (SR002)
-    header, *rows = t["sections"]
+    _header, *rows = t["sections"]
     t["sections"] = [["name", "A [mm2]"]] + [[r[0], str(Fraction(str(r[1])) * 10**6)] for r in rows]
     _write(
         "sr001_sr002_unread_and_converted",
@@ -60,7 +60,7 @@ def unread_and_converted() -> None:
 
 def inexact_conversion() -> None:
     t = _base()
-    header, *rows = t["temperatures"]
+    _header, *rows = t["temperatures"]
     # 40 degC written as 72 degF (a difference: 40 * 9/5 = 72 exactly); 72 * 5/9 = 40 has no finite
     # decimal factor, so the conversion is flagged (SR102) though it lands on 40 here
     t["temperatures"] = [["case", "member", "delta [degF]"]] + [
