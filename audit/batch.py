@@ -25,7 +25,7 @@ import os
 import time
 import traceback
 import xml.etree.ElementTree as ET
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from concurrent.futures import Future, ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
@@ -90,6 +90,7 @@ class BatchResult:
     jobs: int
     seconds: float  #: wall time of the whole batch
     tally: dict[str, int] = field(default_factory=dict)  #: entries per status
+    cluster: str = ""  #: the Dask cluster it ran on (``local:2``, ``tcp://host:8786``), "" for local processes
 
     @property
     def verdict(self) -> str:
@@ -227,6 +228,10 @@ def run_batch(
     paths: Sequence[str | os.PathLike[str] | tuple[Any, Any]],
     jobs: int = 1,
     audit_kwargs: Mapping[str, Any] | None = None,
+    *,
+    cluster: str | None = None,
+    cluster_timeout: float | None = None,
+    work: Callable[[str, str | None, Mapping[str, Any]], BatchEntry] | None = None,
 ) -> BatchResult:
     """Audit every model in ``paths``; the entries come back sorted by path.
 
@@ -241,31 +246,63 @@ def run_batch(
         Passed on to :func:`audit.engine.audit`: ``fail_on`` (a Severity or
         its name), ``only``, ``skip``, ``digits``, ``backend``, and the
         tolerances, either ``tolerances`` (a Tolerances) or ``policy`` (a
-        policy file) and ``tol`` (``NAME=VALUE`` overrides).
+        policy file) and ``tol`` (``NAME=VALUE`` overrides); ``sarif`` (True: locate the
+        items in each model file for the SARIF report).
+    cluster
+        None: local processes (``jobs``).  A Dask scheduler address or ``local:N``: the models
+        are sent to that cluster (:mod:`audit.cluster`); ``jobs`` is then not used.
+    cluster_timeout
+        Seconds allowed to reach the scheduler or start the local cluster
+        (default :data:`audit.cluster.CONNECT_TIMEOUT`).
+    work
+        The unit of work, :func:`audit_file` unless a test wraps it.
 
     Raises
     ------
     ValueError
         for a bad option in ``audit_kwargs`` (before any model is read);
         problems with a model are never raised, they are its entry's status.
+    audit.cluster.ClusterError
+        for a bad ``cluster`` value, dask missing, or a scheduler that does not answer (before any
+        model is sent).
     """
     kwargs = dict(audit_kwargs or {})
     _engine_kwargs(kwargs)  # a bad option (tolerance, severity) fails here, once, before any model is read
     pairs = _pairs(paths)
     t0 = time.perf_counter()
-    jobs = max(1, min(int(jobs), len(pairs) or 1))
-    entries = [audit_file(m, r, kwargs) for m, r in pairs] if jobs == 1 else _run_pool(pairs, jobs, kwargs)
+    task = work or audit_file
+    if cluster is not None:
+        from audit import cluster as dask_cluster
+
+        spec = dask_cluster.parse(cluster)
+        timeout = dask_cluster.CONNECT_TIMEOUT if cluster_timeout is None else cluster_timeout
+        entries = dask_cluster.run(pairs, spec, kwargs, work=task, timeout=timeout) if pairs else []
+        jobs = spec.local_workers or max(1, int(jobs))
+    else:
+        jobs = max(1, min(int(jobs), len(pairs) or 1))
+        entries = [task(m, r, kwargs) for m, r in pairs] if jobs == 1 else _run_pool(pairs, jobs, kwargs, task)
     tally = {s: sum(e.status == s for e in entries) for s in EXIT_CODES}
-    return BatchResult(entries=tuple(entries), jobs=jobs, seconds=time.perf_counter() - t0, tally=tally)
+    return BatchResult(
+        entries=tuple(entries),
+        jobs=jobs,
+        seconds=time.perf_counter() - t0,
+        tally=tally,
+        cluster=spec.label if cluster is not None else "",
+    )
 
 
-def _run_pool(pairs: list[tuple[str, str | None]], jobs: int, kwargs: dict[str, Any]) -> list[BatchEntry]:
+def _run_pool(
+    pairs: list[tuple[str, str | None]],
+    jobs: int,
+    kwargs: dict[str, Any],
+    task: Callable[[str, str | None, Mapping[str, Any]], BatchEntry],
+) -> list[BatchEntry]:
     threads = max(1, (os.cpu_count() or 1) // jobs)
     out: list[BatchEntry | None] = [None] * len(pairs)
     with ProcessPoolExecutor(
         max_workers=jobs, mp_context=get_context("spawn"), initializer=_limit_threads, initargs=(threads,)
     ) as pool:
-        futures: list[Future[BatchEntry]] = [pool.submit(audit_file, m, r, kwargs) for m, r in pairs]
+        futures: list[Future[BatchEntry]] = [pool.submit(task, m, r, kwargs) for m, r in pairs]
         for i, fut in enumerate(futures):
             try:
                 out[i] = fut.result()
@@ -287,7 +324,11 @@ def exit_code(batch: BatchResult) -> int:
 
 # --------------------------------------------------------------- reporting
 def render_summary(batch: BatchResult) -> str:
-    """A plain-text table, one row per model, and a tally line."""
+    """A plain-text table, one row per model, and a tally line.
+
+    No wall times and nothing of how the batch ran: the same models give the same bytes with
+    ``--jobs 1``, ``--jobs N`` or a cluster (:func:`render_timing` says how long it took).
+    """
     from tabulate import tabulate
 
     rows = []
@@ -299,18 +340,23 @@ def render_summary(batch: BatchResult) -> str:
         if e.status == "input_error" and e.problems:
             more = f" (+{len(e.problems) - 1} more)" if len(e.problems) > 1 else ""
             note = f"{_problem_text(e, 0)}{more}"
-        rows.append((e.path, e.status, size, c["errors"], c["warnings"], c["checks_not_run"], f"{e.seconds:.2f}", note))
+        rows.append((e.path, e.status, size, c["errors"], c["warnings"], c["checks_not_run"], note))
     table = tabulate(
         rows,
-        headers=["model", "status", "members", "errors", "warnings", "not run", "s", "note"],
+        headers=["model", "status", "members", "errors", "warnings", "not run", "note"],
         tablefmt="simple",
         disable_numparse=True,
     )
     tally = ", ".join(f"{n} {s.replace('_', ' ')}" for s, n in batch.tally.items() if n)
-    return (
-        f"{table}\n\nbatch: {len(batch.entries)} models ({tally or 'none'}), verdict {batch.verdict}, "
-        f"{batch.seconds:.1f} s with {batch.jobs} job(s)\n"
-    )
+    return f"{table}\n\nbatch: {len(batch.entries)} models ({tally or 'none'}), verdict {batch.verdict}\n"
+
+
+def render_timing(batch: BatchResult) -> str:
+    """How long the batch took and where it ran, and the slowest model: one line for the terminal."""
+    slowest = max(batch.entries, key=lambda e: e.seconds, default=None)
+    where = f"on the cluster {batch.cluster}" if batch.cluster else f"with {batch.jobs} job(s)"
+    tail = f"; slowest {slowest.path} {slowest.seconds:.2f} s" if slowest is not None else ""
+    return f"batch: {batch.seconds:.1f} s {where}{tail}\n"
 
 
 def _problem_text(e: BatchEntry, i: int) -> str:
@@ -434,5 +480,6 @@ __all__ = [
     "render_batch_junit",
     "render_batch_sarif",
     "render_summary",
+    "render_timing",
     "run_batch",
 ]

@@ -106,6 +106,18 @@ def _parser() -> _Parser:
     c.add_argument("--digits", type=int, default=30, help="significant digits of the high-precision recomputation")
     c.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
     c.add_argument("--jobs", type=int, default=1, help="models audited in parallel (processes)")
+    c.add_argument(
+        "--cluster",
+        metavar="ADDRESS",
+        help="send a batch to a Dask scheduler (tcp://host:8786), or local:N to start N local worker processes",
+    )
+    c.add_argument(
+        "--cluster-timeout",
+        type=float,
+        default=20.0,
+        metavar="SECONDS",
+        help="seconds allowed to reach the scheduler or start the local cluster (default 20)",
+    )
     c.add_argument("--quiet", action="store_true", help="print only the verdict line; no progress display")
     c.add_argument("--colour", action="store_true", help="colour the terminal report")
     c.add_argument("--timings", action="store_true", help="print the time of each stage to stderr (one model only)")
@@ -345,6 +357,15 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
 def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.digits < 16 or args.digits > 200:
         raise _UsageError("--digits must be between 16 and 200")
+    if args.cluster is not None:  # a bad --cluster value is refused before anything is read
+        from audit.cluster import ClusterError, parse
+
+        if not args.cluster_timeout > 0:
+            raise _UsageError("--cluster-timeout must be a positive number of seconds")
+        try:
+            parse(args.cluster)
+        except ClusterError as exc:
+            raise _UsageError(f"truss-audit: {exc}") from None
     pairs = _expand_inputs(args.inputs)
     if args.results:
         if len(pairs) != 1:
@@ -352,7 +373,7 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         pairs = [(pairs[0][0], args.results)]
     if not pairs:
         raise _UsageError("no model files found")
-    if len(pairs) == 1:
+    if len(pairs) == 1 and not args.cluster:  # with --cluster even one model goes to the cluster
         return _check_one(args, pairs[0][0], pairs[0][1], out, err)
     if args.map or args.ifc_model:
         raise _UsageError("--map and --ifc-model go with exactly one source")
@@ -366,9 +387,34 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise _UsageError(
             "--html, --plot and --markdown take a single model; use --json, --junit or --sarif for a batch"
         )
-    result = batch.run_batch(
+    from audit.cluster import ClusterError
+
+    try:
+        result = _run_batch(args, pairs)
+    except ClusterError as exc:
+        raise _UsageError(f"truss-audit: {exc}") from None
+    from audit.fileio import atomic_write_text
+
+    out.write(batch.render_summary(result))
+    if not args.quiet:
+        err.write(batch.render_timing(result))
+    if args.json:
+        atomic_write_text(args.json, batch.render_batch_json(result))
+    if args.junit:
+        atomic_write_text(args.junit, batch.render_batch_junit(result))
+    if args.sarif:
+        atomic_write_text(args.sarif, batch.render_batch_sarif(result, Severity.parse(args.sarif_min)))
+    return batch.exit_code(result)
+
+
+def _run_batch(args: argparse.Namespace, pairs: list[tuple[str, str | None]]) -> Any:
+    from audit import batch
+
+    return batch.run_batch(
         pairs,
         jobs=max(1, args.jobs),
+        cluster=args.cluster,
+        cluster_timeout=args.cluster_timeout,
         audit_kwargs={
             "fail_on": args.fail_on,
             "only": tuple(args.only),
@@ -380,16 +426,6 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             "sarif": bool(args.sarif),
         },
     )
-    from audit.fileio import atomic_write_text
-
-    out.write(batch.render_summary(result))
-    if args.json:
-        atomic_write_text(args.json, batch.render_batch_json(result))
-    if args.junit:
-        atomic_write_text(args.junit, batch.render_batch_junit(result))
-    if args.sarif:
-        atomic_write_text(args.sarif, batch.render_batch_sarif(result, Severity.parse(args.sarif_min)))
-    return batch.exit_code(result)
 
 
 def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
