@@ -19,6 +19,7 @@ from audit.checks import (
     compatibility,
     diagnosis,
     equilibrium,
+    nonlinear_states,
     precision_check,
     recompute,
     stability_check,
@@ -37,6 +38,7 @@ from audit.tolerances import Tolerances
 #: the check families, in the order they run and are reported
 CHECK_MODULES: tuple[ModuleType, ...] = (
     stability_check,
+    nonlinear_states,
     stiffness_health,
     equilibrium,
     supports,

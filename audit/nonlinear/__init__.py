@@ -65,14 +65,12 @@ def mechanism_message(model: Model, needed: tuple[int, ...]) -> str:
     if not needed:
         return "the active structure is a mechanism (the members that would stop it could not be named)"
     codes = model.behaviour_codes()
-    parts = [
-        f"{model.member_ids[i]} takes {'compression' if codes[i] > 0 else 'tension'}" for i in needed[:10]
-    ]
+    parts = [f"{model.member_ids[i]} takes {'compression' if codes[i] > 0 else 'tension'}" for i in needed[:10]]
     more = f" (and {len(needed) - 10} more members)" if len(needed) > 10 else ""
     return "the active structure is a mechanism: stable only if " + ", ".join(parts) + more
 
 
-def solve_nonlinear(model: Model, system, factor: linsolve.Factor, cond: float = float("nan")):  # noqa: ANN001
+def solve_nonlinear(model: Model, system, factor: linsolve.Factor, cond: float = float("nan")):
     """Solve every state of a non-linear model; see the module docstring.  Returns a :class:`Solution`."""
     from audit.solve import CaseSolution, Solution
 

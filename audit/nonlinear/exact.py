@@ -58,7 +58,7 @@ def active_model(model: Model, state: StateOutcome) -> tuple[Model, np.ndarray]:
     new_index = {int(j): i for i, j in enumerate(keep.tolist())}
     ci = model.case_index(state.case_id)
     if ci is not None:
-        cases = (_reduced_case(model, model.load_cases[ci], new_index),)
+        cases: tuple[LoadCase, ...] = (_reduced_case(model, model.load_cases[ci], new_index),)
         combos: tuple = ()
     else:
         comb = model.combinations[model.combination_index(state.case_id)]  # type: ignore[index]
@@ -97,9 +97,7 @@ def _reduced_results(results: Results | None, case_id: str, keep: np.ndarray) ->
     cr = results.case(case_id)
     if cr is None:
         return None
-    sub: CaseResults = replace(
-        cr, axial_forces=cr.axial_forces[keep], axial_force_quantum=cr.axial_force_quantum[keep]
-    )
+    sub: CaseResults = replace(cr, axial_forces=cr.axial_forces[keep], axial_force_quantum=cr.axial_force_quantum[keep])
     return replace(results, cases=(sub,))
 
 
@@ -110,7 +108,7 @@ def _expand(values: np.ndarray, keep: np.ndarray, m: int, fill: object = 0.0) ->
     return out
 
 
-def _expand_reported(reported, keep: np.ndarray, m: int):  # noqa: ANN001
+def _expand_reported(reported, keep: np.ndarray, m: int):
     """The reported proof with the per-member quantity over every member (slack ones: not judged here)."""
     quantities = []
     for q in reported.quantities:
@@ -126,7 +124,7 @@ def _expand_reported(reported, keep: np.ndarray, m: int):  # noqa: ANN001
     return replace(reported, quantities=tuple(quantities))
 
 
-def _active_set_proof(model: Model, state: StateOutcome, cp, d0: np.ndarray) -> tuple[bool, str]:  # noqa: ANN001
+def _active_set_proof(model: Model, state: StateOutcome, cp, d0: np.ndarray) -> tuple[bool, str]:
     """Whether the bounds establish the state's active set; the members they leave undecided, in words."""
     codes = model.behaviour_codes()
     nl = codes != 0
@@ -150,7 +148,7 @@ def _active_set_proof(model: Model, state: StateOutcome, cp, d0: np.ndarray) -> 
     return True, ""
 
 
-def nonlinear_precision(model: Model, solution, results: Results | None, digits: int):  # noqa: ANN001
+def nonlinear_precision(model: Model, solution, results: Results | None, digits: int):
     """A :class:`~audit.precision.PrecisionReport` over the solved states of a non-linear model."""
     from audit import precision
     from audit.precision.exact_numbers import Fixed
@@ -171,7 +169,12 @@ def nonlinear_precision(model: Model, solution, results: Results | None, digits:
         system = build_system(sub)
         factor, cond = factorize_system(sub, system)
         pr = precision.analyse(
-            sub, system, factor, solve_with(sub, system, factor, cond), _reduced_results(results, st.case_id, keep), digits
+            sub,
+            system,
+            factor,
+            solve_with(sub, system, factor, cond),
+            _reduced_results(results, st.case_id, keep),
+            digits,
         )
         reports.append(pr)
         cp = pr.case(st.case_id)
@@ -190,8 +193,25 @@ def nonlinear_precision(model: Model, solution, results: Results | None, digits:
             reason = (cp.reason + "; " if cp.reason else "") + why
             cp = replace(cp, status="not_established", reason=reason)
         cases.append(cp)
+    unsolved = tuple((s.case_id, s.message) for s in rep.unsolved)
     if not reports:
-        return None
+        return PrecisionReport(
+            digits=digits,
+            cases=(),
+            lambda_lo=None,
+            lambda_lo_scaled=None,
+            lambda_method="none",
+            lambda_reason="no state has a solution",
+            condition_estimate=float("nan"),
+            condition_upper=None,
+            condition_scaled=float("nan"),
+            data_precision=float("nan"),
+            data_precision_source="none",
+            from_text=True,
+            method="per state, on its final active structure",
+            timings=(),
+            unsolved=unsolved,
+        )
     lams = [r.lambda_lo for r in reports]
     first = reports[0]
     return PrecisionReport(
@@ -210,4 +230,5 @@ def nonlinear_precision(model: Model, solution, results: Results | None, digits:
         method="per state, on its final active structure: " + first.method,
         timings=tuple(("total", sum(dict(r.timings).get("total", 0.0) for r in reports)) for _ in (0,)),
         certificate=first.certificate,
+        unsolved=unsolved,
     )

@@ -50,7 +50,7 @@ import scipy.sparse as sp
 from audit.model import FloatArray, IntArray
 
 from .records import MECHANISM, NOT_CONVERGED, SOLVED, BoolArray
-from .updates import ActiveSolver, Singular
+from .updates import ActiveSolver, SingularError
 
 MAX_ACTIVE_SET = 60
 MAX_NEWTON = 200
@@ -100,10 +100,7 @@ class _Problem:
     def classify(self, e: FloatArray, previous: BoolArray | None) -> BoolArray:
         se = self.s * e
         tau = HYSTERESIS * float(np.abs(e).max(initial=0.0))
-        if previous is None:
-            on = se > 0.0
-        else:
-            on = np.where(previous, se >= -tau, se > tau)
+        on = se > 0.0 if previous is None else np.where(previous, se >= -tau, se > tau)
         return np.asarray(~self.nl | on, dtype=bool)
 
     def energy(self, w: FloatArray) -> float:
@@ -204,7 +201,7 @@ def solve_state(solver: ActiveSolver, sign: IntArray, data: StateData) -> StateS
         active = new
         try:
             w = solver.solve(active.astype(np.float64), pb.rhs(active))
-        except Singular as exc:
+        except SingularError as exc:
             pending = exc.direction
             break
         iterations += 1
@@ -228,7 +225,7 @@ def _damped(pb: _Problem, w: FloatArray, iterations: int) -> StateSolution:
         iterations += 1
         try:
             target = solver.solve(active.astype(np.float64), pb.rhs(active))
-        except Singular as exc:
+        except SingularError as exc:
             needed = pb.unbounded_along(exc.direction)
             if needed is not None:
                 return StateSolution(MECHANISM, w, active, iterations, True, needed, 0.0)

@@ -50,7 +50,7 @@ def max_rank(n: int) -> int:
     return int(max(8, min(256, 2.0e7 // max(n, 1))))
 
 
-class Singular(Exception):
+class SingularError(Exception):
     """The active structure's stiffness is singular; ``direction`` is a mechanism (reduced dofs) when known."""
 
     def __init__(self, direction: FloatArray | None) -> None:
@@ -92,7 +92,7 @@ class ActiveSolver:
         return self.Br.T @ (self.k * weights * (self.Br @ x)) + self.Ks @ x
 
     def solve(self, weights: FloatArray, r: FloatArray) -> FloatArray:
-        """K(ω)⁻¹ r; raises :class:`Singular` when the structure ω is a mechanism."""
+        """K(ω)⁻¹ r; raises :class:`SingularError` when the structure ω is a mechanism."""
         bases = [b for b in (self.full, self.extra) if b is not None]
         changed = [np.flatnonzero(weights != b.weights) for b in bases]
         j = int(np.argmin([c.size for c in changed]))
@@ -129,7 +129,7 @@ class ActiveSolver:
         sv = np.linalg.svd(C * s[:, None] * s[None, :], compute_uv=False)
         # scaled, D⁻¹ is ±I: a singular value far below max(1, the largest) means K(ω) is singular
         if not np.all(np.isfinite(sv)) or sv[-1] <= max(1.0, sv[0]) / CAPACITANCE_CONDITION:
-            raise Singular(self._null_direction(C, Z))
+            raise SingularError(self._null_direction(C, Z))
         U = self.Br[idx]
 
         def apply(rhs: FloatArray) -> FloatArray:
@@ -164,9 +164,9 @@ class ActiveSolver:
             factor = linsolve.factorize(K, self.backend)
             cond = condition_estimate(K, factor)
         except np.linalg.LinAlgError:
-            raise Singular(self.mechanism_of(weights)) from None
+            raise SingularError(self.mechanism_of(weights)) from None
         if not np.isfinite(cond) or cond > SINGULAR_CONDITION:
-            raise Singular(self.mechanism_of(weights))
+            raise SingularError(self.mechanism_of(weights))
         self.extra = _Base(weights.copy(), factor)
         return factor.solve(r)
 
