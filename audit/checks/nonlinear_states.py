@@ -47,7 +47,7 @@ NAMED = 12
 def run(ctx: Context) -> list[CheckOutcome]:
     model = ctx.model
     if not model.is_nonlinear:
-        return [cm.not_run(CHECK_ID, None, "the model has no tension-only or compression-only members")]
+        return [cm.not_run(CHECK_ID, None, "no tension- or compression-only members")]
     nl = ctx.solution.nonlinear if ctx.solution is not None else None
     if nl is None:
         return [cm.not_run(CHECK_ID, None, ctx.unsolvable_reason or "the model was not solved")]
