@@ -9,8 +9,10 @@ whose audit raises.  The entries come back in the order of their paths
 JSON and JUnit documents of a batch are reproducible.
 
 Workers start by ``spawn`` (a fresh interpreter: the OpenMP runtime behind
-MKL does not survive ``fork``) and each limits its BLAS/OpenMP threads to
-its share of the cores, so that ``jobs`` workers do not oversubscribe them.
+MKL does not survive ``fork``) and each uses one BLAS/OpenMP thread, as does
+``jobs=1`` (:func:`single_thread`) and a Dask cluster (:mod:`audit.cluster`):
+kernels sum in an order that depends on their thread count, and a batch's
+documents must be the same bytes however it ran.
 
 Entry status, and the batch exit code (the worst over the entries, the same
 codes as for one model): ``pass`` 0, ``fail`` 1, ``input_error`` 2
@@ -102,6 +104,18 @@ def _limit_threads(threads: int) -> None:
     """Cap the OpenMP/BLAS threads of this worker (read by MKL and OpenBLAS when first loaded)."""
     for name in ("OMP_NUM_THREADS", "MKL_NUM_THREADS", "OPENBLAS_NUM_THREADS"):
         os.environ[name] = str(threads)
+
+
+def single_thread() -> Any:
+    """A context in which MKL, OpenBLAS and OpenMP use one thread (threadpoolctl), as batch workers do.
+
+    Dense and sparse kernels sum in an order that depends on their thread count, so the last bits of
+    a bound differ between 1 and 2 threads; every way of running a batch therefore uses one thread
+    per model, and its documents are the same bytes.
+    """
+    from threadpoolctl import threadpool_limits
+
+    return threadpool_limits(limits=1)
 
 
 def _tolerances(kwargs: Mapping[str, Any]) -> Any:
@@ -280,7 +294,11 @@ def run_batch(
         jobs = spec.local_workers or max(1, int(jobs))
     else:
         jobs = max(1, min(int(jobs), len(pairs) or 1))
-        entries = [task(m, r, kwargs) for m, r in pairs] if jobs == 1 else _run_pool(pairs, jobs, kwargs, task)
+        if jobs == 1:
+            with single_thread():
+                entries = [task(m, r, kwargs) for m, r in pairs]
+        else:
+            entries = _run_pool(pairs, jobs, kwargs, task)
     tally = {s: sum(e.status == s for e in entries) for s in EXIT_CODES}
     return BatchResult(
         entries=tuple(entries),
@@ -297,7 +315,7 @@ def _run_pool(
     kwargs: dict[str, Any],
     task: Callable[[str, str | None, Mapping[str, Any]], BatchEntry],
 ) -> list[BatchEntry]:
-    threads = max(1, (os.cpu_count() or 1) // jobs)
+    threads = 1  # as in every other way of running a batch: the same sums in the same order, the same bytes
     out: list[BatchEntry | None] = [None] * len(pairs)
     with ProcessPoolExecutor(
         max_workers=jobs, mp_context=get_context("spawn"), initializer=_limit_threads, initargs=(threads,)

@@ -106,8 +106,11 @@ def _task(
     kwargs: Mapping[str, Any],
 ) -> BatchEntry:
     """What runs on a worker: one thread, then the unit of work."""
+    from audit.batch import single_thread
+
     _one_thread()
-    return work(model_path, results_path, kwargs)
+    with single_thread():
+        return work(model_path, results_path, kwargs)
 
 
 def _import_distributed() -> Any:
