@@ -87,8 +87,11 @@ def build_context(
     solution = None
     if factor is not None and stab.stable:
         say("recomputing displacements, forces and reactions")
-        with stage(timings, "recompute"):
-            solution = solve_with(model, system, factor, cond)
+        try:
+            with stage(timings, "recompute"):
+                solution = solve_with(model, system, factor, cond)
+        except UnsolvableError as exc:
+            reason = exc.message
     elif not reason:
         reason = "the model is unstable: " + stab.summary()
     prec = None
