@@ -64,12 +64,12 @@ def _model_file(kind: str, members: str) -> Path:
     return path
 
 
-def _timed(cmd: list[str], timeout: float) -> tuple[float, float, str, str, int]:
-    """Run ``cmd`` under /usr/bin/time: (seconds, peak MiB, stdout, stderr without time's line, exit code)."""
+def _timed(cmd: list[str], timeout: float, tree: Path = ROOT) -> tuple[float, float, str, str, int]:
+    """Run ``cmd`` under /usr/bin/time: (seconds, peak MiB, stdout, stderr, exit code), ``tree`` first on the path."""
     with tempfile.NamedTemporaryFile("r", suffix=".time", delete=False) as fh:
         tfile = fh.name
     try:
-        env = dict(os.environ, PYTHONPATH=str(ROOT))
+        env = dict(os.environ, PYTHONPATH=str(tree))
         p = subprocess.run(
             ["/usr/bin/time", "-o", tfile, "-f", "%e %M", *cmd],
             capture_output=True,
@@ -91,12 +91,12 @@ def _floor(path: Path, timeout: float) -> dict:
     return {"seconds": secs, "peak_mib": mib, **json.loads(out.strip().splitlines()[-1])}
 
 
-def _audit(path: Path, digits: int, timeout: float) -> dict:
+def _audit(path: Path, digits: int, timeout: float, tree: Path = ROOT) -> dict:
     with tempfile.TemporaryDirectory() as tmp:
         report = Path(tmp) / "report.json"
         cmd = [sys.executable, "-m", "audit", "check", str(path), "--quiet", "--timings", "--json", str(report)]
         cmd += ["--digits", str(digits)]
-        secs, mib, _out, err, code = _timed(cmd, timeout)
+        secs, mib, _out, err, code = _timed(cmd, timeout, tree)
         if code not in (0, 1):
             raise RuntimeError(f"audit exited {code} on {path}:\n{err[-3000:]}")
         doc = json.loads(report.read_text(encoding="utf-8"))
@@ -136,30 +136,39 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--sizes", nargs="+", default=["grid2d:1e4", "lattice3d:1e4"])
     p.add_argument("--repeat", type=int, default=3)
     p.add_argument("--digits", type=int, nargs="+", default=[30], help="--digits of each audit run")
+    p.add_argument(
+        "--tree",
+        action="append",
+        default=[],
+        metavar="LABEL=PATH",
+        help="audit this source tree too (e.g. before=/tmp/old); default: this tree only, labelled 'this'",
+    )
     p.add_argument("--timeout", type=float, default=1800)
     p.add_argument("--json", metavar="PATH", help="also write the raw runs as JSON")
     a = p.parse_args(argv)
+    trees = {"this": ROOT} if not a.tree else {k: Path(v) for k, _, v in (x.partition("=") for x in a.tree)}
     print(f"load average at start {os.getloadavg()[0]:.1f} ({os.cpu_count()} cores)", flush=True)
     rows, raw = [], {}
     for size in a.sizes:
         kind, members = size.split(":")
         path = _model_file(kind, members)
         floors: list[dict] = []
-        audits: dict[int, list[dict]] = {d: [] for d in a.digits}
+        audits: dict[tuple[str, int], list[dict]] = {(t, d): [] for t in trees for d in a.digits}
         for _ in range(a.repeat):
             floors.append(_floor(path, a.timeout))
-            for d in a.digits:
-                audits[d].append(_audit(path, d, a.timeout))
-        raw[size] = {"floor": floors, "audit": {str(d): v for d, v in audits.items()}}
+            for t, d in audits:
+                audits[(t, d)].append(_audit(path, d, a.timeout, trees[t]))
+        raw[size] = {"floor": floors, "audit": {f"{t} {d}": v for (t, d), v in audits.items()}}
         tf = _med([f["seconds"] for f in floors])
         mf = _med([f["peak_mib"] for f in floors])
-        for d, runs in audits.items():
+        for (t, d), runs in audits.items():
             r0 = runs[0]
             ta = _med([r["seconds"] for r in runs])
             ma = _med([r["peak_mib"] for r in runs])
             stages = {s: _med([r["stages"].get(s, 0.0) for r in runs]) for s in STAGES}
             row = {
                 "model": f"{kind} {r0['members']:,}" if r0["members"] else size,
+                "tree": t,
                 "digits": d,
                 "stages": stages,
                 "audit": ta,
@@ -182,15 +191,17 @@ def main(argv: list[str] | None = None) -> int:
 
 def _line(r: dict) -> str:
     parts = ", ".join(f"{s} {r['stages'][s]:.2f}" for s in STAGES)
-    return f"{r['model']} (digits {r['digits']}): audit {r['audit']:.2f} s, floor {r['floor']:.2f} s; {parts}"
+    head = f"{r['model']} ({r['tree']}, digits {r['digits']})"
+    return f"{head}: audit {r['audit']:.2f} s, floor {r['floor']:.2f} s; {parts}"
 
 
 def render(rows: list[dict]) -> str:
-    head = ["model (members)", "digits", *STAGES, "audit", "floor", "ratio", "peak audit / floor", "found"]
+    head = ["model (members)", "tree", "digits", *STAGES, "audit", "floor", "ratio", "peak audit / floor", "found"]
     lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
     for r in rows:
         cells = [
             r["model"],
+            r["tree"],
             str(r["digits"]),
             *(f"{r['stages'][s]:.2f}" for s in STAGES),
             f"{r['audit']:.2f}",
