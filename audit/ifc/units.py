@@ -135,6 +135,7 @@ class Units:
     force: str = "N"
     temperature: str = "K"
     uses_temperature: bool = False  #: a temperature change was read (the model then declares its unit)
+    _scales: dict[tuple[Dim, str | None], Fraction] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
 
     def si(self, unit_type: str) -> Fraction | None:
@@ -144,6 +145,14 @@ class Units:
     def scale(self, dim: Dim, unit_type: str | None, own: Unit | None = None) -> Fraction:
         """Factor from the file's unit of a quantity (its own unit, else its assigned one, else the one
         derived from length and force) to the model's unit of that dimension."""
+        if own is None:
+            hit = self._scales.get((dim, unit_type))
+            if hit is None:
+                hit = self._scales[(dim, unit_type)] = self._scale(dim, unit_type, None)
+            return hit
+        return self._scale(dim, unit_type, own)
+
+    def _scale(self, dim: Dim, unit_type: str | None, own: Unit | None) -> Fraction:
         lf, ff = LENGTH_UNITS[self.length], FORCE_UNITS[self.force]
         # model unit of a dimension L^a (force)^b: force carries mass, so b = mass exponent
         b = dim[1]
