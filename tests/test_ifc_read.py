@@ -226,3 +226,77 @@ def test_unit_weight_self_weight_and_behaviour(system: str, tmp_path: Path) -> N
     assert dead.self_weight == pytest.approx(1.35, rel=RTOL)
     np.testing.assert_allclose(dead.self_weight_direction, [0.0, -1.0], atol=1e-15)
     assert got.behaviour.tolist() == want.behaviour.tolist()
+
+
+def _ifc2x3_two_bars(path: Path) -> None:
+    """Two bars in IFC2X3's own forms: IfcMechanicalMaterialProperties, IfcGeneralProfileProperties through
+    IfcRelAssociatesProfileProperties, LinearStiffness springs (IFC2X3 has no "fixed" flag), a point load."""
+    f = ifcopenshell.file(schema="IFC2X3")
+    c = f.create_entity
+    org = c("IfcOrganization", Name="test")
+    app = c("IfcApplication", org, "1", "tests", "tests")
+    user = c("IfcPersonAndOrganization", c("IfcPerson", FamilyName="tester"), org)
+    history = c("IfcOwnerHistory", user, app, ChangeAction="ADDED", CreationDate=0)
+
+    def g() -> str:  # a GlobalId, and (positionally next) the owner history IFC2X3 requires
+        return ifcopenshell.guid.new()
+
+    def root(kind: str, **kw: Any) -> Any:
+        return c(kind, g(), history, **kw)
+
+    origin = c("IfcCartesianPoint", (0.0, 0.0, 0.0))
+    ctx = c("IfcGeometricRepresentationContext", ContextType="Model", CoordinateSpaceDimension=3,
+            WorldCoordinateSystem=c("IfcAxis2Placement3D", origin))  # fmt: skip
+    mm = c("IfcSIUnit", UnitType="LENGTHUNIT", Prefix="MILLI", Name="METRE")
+    kn = c("IfcSIUnit", UnitType="FORCEUNIT", Prefix="KILO", Name="NEWTON")
+    mpa = c("IfcSIUnit", UnitType="PRESSUREUNIT", Prefix="MEGA", Name="PASCAL")
+    modulus = c("IfcDerivedUnit", Elements=[c("IfcDerivedUnitElement", mpa, 1)], UnitType="MODULUSOFELASTICITYUNIT")
+    units = c("IfcUnitAssignment", [mm, kn, modulus])
+    root("IfcProject", Name="p", RepresentationContexts=[ctx], UnitsInContext=units)
+    model = root("IfcStructuralAnalysisModel", Name="two bars", PredefinedType="LOADING_3D")
+    conns = []
+    for name, xyz, k in (
+        ("A", (0.0, 0.0, 0.0), 500.0),
+        ("B", (3000.0, 0.0, 0.0), None),
+        ("C", (6000.0, 0.0, 0.0), 500.0),
+    ):
+        vp = c("IfcVertexPoint", c("IfcCartesianPoint", xyz))
+        rep = c("IfcTopologyRepresentation", ctx, "Reference", "Vertex", [vp])
+        cond = c("IfcBoundaryNodeCondition", f"spring {name}", k, k, k) if k else None
+        conns.append(root("IfcStructuralPointConnection", Name=name, AppliedCondition=cond,
+                       Representation=c("IfcProductDefinitionShape", Representations=[rep])))  # fmt: skip
+    members = []
+    for name, a, b in (("AB", 0, 1), ("BC", 1, 2)):
+        m = root("IfcStructuralCurveMember", Name=name, PredefinedType="PIN_JOINED_MEMBER")
+        root("IfcRelConnectsStructuralMember", RelatingStructuralMember=m, RelatedStructuralConnection=conns[a])
+        root("IfcRelConnectsStructuralMember", RelatingStructuralMember=m, RelatedStructuralConnection=conns[b])
+        members.append(m)
+    steel = c("IfcMaterial", "steel")
+    c("IfcMechanicalMaterialProperties", Material=steel, YoungModulus=200000.0)
+    root("IfcRelAssociatesMaterial", RelatedObjects=members, RelatingMaterial=steel)
+    props = c("IfcGeneralProfileProperties", ProfileName="rod", CrossSectionArea=1200.0)
+    root("IfcRelAssociatesProfileProperties", RelatedObjects=members, RelatingProfileProperties=props)
+    root("IfcRelAssignsToGroup", RelatedObjects=[*conns, *members], RelatingGroup=model)
+    case = root("IfcStructuralLoadGroup", Name="pull", PredefinedType="LOAD_CASE", ActionType="VARIABLE_Q",
+             ActionSource="WIND_W")  # fmt: skip
+    load = c("IfcStructuralLoadSingleForce", ForceX=12.5, ForceY=-4.0, ForceZ=1.0)
+    act = root(
+        "IfcStructuralPointAction", Name="P", AppliedLoad=load, GlobalOrLocal="GLOBAL_COORDS", DestabilizingLoad=False
+    )
+    root("IfcRelConnectsStructuralActivity", RelatingElement=conns[1], RelatedStructuralActivity=act)
+    root("IfcRelAssignsToGroup", RelatedObjects=[act], RelatingGroup=case)
+    model.LoadedBy = [case]
+    validate(f)
+    f.write(str(path))
+
+
+def test_ifc2x3_forms(tmp_path: Path) -> None:
+    path = tmp_path / "two-bars-2x3.ifc"
+    _ifc2x3_two_bars(path)
+    m = read_ifc(path).model
+    assert (m.dim, m.units.length, m.units.force) == (3, "mm", "kN")
+    assert m.E_text == ("200", "200")  # 200000 MPa = 200 kN/mm^2, exactly
+    assert m.A_text == ("1200.0", "1200.0")
+    assert m.n_restraints == 0  # IFC2X3 stiffnesses are springs
+    assert sorted(m.spring_k_text) == ["500.0"] * 6
+    assert m.load_cases[0].load_text == ((1, 0, "12.5"), (1, 1, "-4.0"), (1, 2, "1.0"))

@@ -33,6 +33,8 @@ class Links:
     group_objects: dict[int, list[tuple[Any, Any]]] = field(default_factory=dict)
     #: object id -> the material definition associated with it (IfcRelAssociatesMaterial)
     material_of: dict[int, Any] = field(default_factory=dict)
+    #: object id -> its IfcGeneralProfileProperties (IFC2X3's IfcRelAssociatesProfileProperties)
+    profile_properties_of: dict[int, Any] = field(default_factory=dict)
     #: material / profile definition id -> its property sets (IfcMaterialProperties, IfcProfileProperties)
     properties_of: dict[int, list[Any]] = field(default_factory=dict)
 
@@ -68,6 +70,13 @@ def read_links(file: Any) -> Links:
         mat = r.get_argument(mat_i)
         for obj in r.get_argument(objs_i) or ():
             links.material_of.setdefault(obj.id(), mat)
+    if file.schema == "IFC2X3":
+        rel = "IfcRelAssociatesProfileProperties"
+        objs_i, props_i = attr_index(file, rel, "RelatedObjects"), attr_index(file, rel, "RelatingProfileProperties")
+        for r in file.by_type(rel):
+            props = r.get_argument(props_i)
+            for obj in r.get_argument(objs_i) or ():
+                links.profile_properties_of.setdefault(obj.id(), props)
     for kind, owner in (("IfcMaterialProperties", "Material"), ("IfcProfileProperties", "ProfileDefinition")):
         try:
             owner_i = attr_index(file, kind, owner)

@@ -45,7 +45,7 @@ def _pset(owner: Any, name: str, links: Links) -> dict[str, Any]:
     """Single-value properties of the property set ``name`` attached to ``owner`` (HasProperties)."""
     out: dict[str, Any] = {}
     for ps in links.properties_of.get(owner.id(), ()):
-        if ps.Name != name:
+        if getattr(ps, "Name", None) != name:  # IFC2X3's typed material properties have no Name
             continue
         for prop in ps.Properties or ():
             if prop.is_a("IfcPropertySingleValue") and prop.NominalValue is not None:
@@ -107,7 +107,14 @@ def _unit_weight(prop: Any, units: Units, issues: Issues) -> bytes | None:
 
 
 def _properties(
-    mat_def: Any, out: MemberRead, mkeys: _Keys, skeys: _Keys, units: Units, issues: Issues, links: Links
+    mat_def: Any,
+    section_props: Any,
+    out: MemberRead,
+    mkeys: _Keys,
+    skeys: _Keys,
+    units: Units,
+    issues: Issues,
+    links: Links,
 ) -> tuple[dict[str, str], tuple[Any, str] | None, list[tuple[Any, dict[int, list[Any]]]]]:
     """The material and section keys of one material definition (read once for every member sharing it),
     a problem to report at each such member (entity or None for the member itself, message), and the
@@ -117,11 +124,17 @@ def _properties(
         return {}, (None, f"its material profile set {label(profile[1])} does not hold exactly one profile"), []
     if profile is None:
         return {}, (None, "has no material profile (IfcRelAssociatesMaterial -> IfcMaterialProfileSetUsage)"), []
-    if not profile.is_a("IfcMaterialProfile"):
-        return {}, (None, f"its material {label(profile)} is not a material profile set (no section area)"), []
     refs: dict[str, str] = {}
     owners: list[tuple[Any, dict[int, list[Any]]]] = []
-    material, section = profile.Material, profile.Profile
+    if profile.is_a("IfcMaterial"):  # IFC2X3: a material, and the section through IfcRelAssociatesProfileProperties
+        if section_props is None:
+            why = "has no section area (no material profile set, and no IfcRelAssociatesProfileProperties)"
+            return {}, (None, why), []
+        material, section = profile, section_props
+    elif not profile.is_a("IfcMaterialProfile"):
+        return {}, (None, f"its material {label(profile)} is not a material profile set (no section area)"), []
+    else:
+        material, section = profile.Material, profile.Profile
     if material is None:
         issues.problem(profile, "names no material")
     else:
@@ -137,12 +150,19 @@ def _properties(
     else:
         key, new = skeys.key(section, section.ProfileName)
         if new:
-            props = _pset(section, "Pset_ProfileMechanical", links) or _pset(profile, "Pset_ProfileMechanical", links)
             sentry: dict[str, bytes] = {}
-            if "CrossSectionArea" in props:
-                a = _quantity(props["CrossSectionArea"], AREA, "AREAUNIT", units, issues)
-                if a is not None:
-                    sentry["A"] = a
+            if section.is_a("IfcGeneralProfileProperties"):  # IFC2X3
+                area = getattr(section, "CrossSectionArea", None)
+                if area is not None:
+                    sentry["A"] = number_text(float(area), units.scale(AREA, "AREAUNIT"))
+            else:
+                props = _pset(section, "Pset_ProfileMechanical", links) or _pset(
+                    profile, "Pset_ProfileMechanical", links
+                )
+                if "CrossSectionArea" in props:
+                    a = _quantity(props["CrossSectionArea"], AREA, "AREAUNIT", units, issues)
+                    if a is not None:
+                        sentry["A"] = a
             out.sections[key] = sentry
             out.section_entity[key] = section
         if "A" not in out.sections[key]:
@@ -163,6 +183,17 @@ def _material_entry(material: Any, units: Units, issues: Issues, links: Links) -
         a = _quantity(prop, PER_DEGREE, "THERMALEXPANSIONCOEFFICIENTUNIT", units, issues)
         if a is not None:
             entry["alpha"] = a
+    for typed in links.properties_of.get(material.id(), ()):  # IFC2X3: IfcMechanicalMaterialProperties
+        if typed.is_a("IfcMechanicalMaterialProperties"):
+            for key, dim, unit_type in (
+                ("YoungModulus", MODULUS, "MODULUSOFELASTICITYUNIT"),
+                ("ThermalExpansionCoefficient", PER_DEGREE, "THERMALEXPANSIONCOEFFICIENTUNIT"),
+            ):
+                value = getattr(typed, key, None)
+                if isinstance(value, float):
+                    entry.setdefault(
+                        "E" if key == "YoungModulus" else "alpha", number_text(value, units.scale(dim, unit_type))
+                    )
     density = _pset(material, "Pset_MaterialCommon", links).get("MassDensity")
     if density is not None:
         w = _unit_weight(density, units, issues)
@@ -183,7 +214,7 @@ def read_members(
     mkeys, skeys = _Keys(), _Keys()
     name_i = attr_index(file, "IfcStructuralCurveMember", "Name")
     type_i = attr_index(file, "IfcStructuralCurveMember", "PredefinedType")
-    outcomes: dict[int, Any] = {}
+    outcomes: dict[tuple[int, int], Any] = {}
     for member in members:
         mid = member.id()
         name = member.get_argument(name_i)
@@ -200,10 +231,11 @@ def read_members(
             out.kinds.setdefault(kind, []).append(member)
             row["behaviour"] = BEHAVIOUR[kind]
         mat_def = links.material_of.get(mid)
-        key_def = mat_def.id() if mat_def is not None else 0
+        section_props = links.profile_properties_of.get(mid)
+        key_def = (mat_def.id() if mat_def is not None else 0, section_props.id() if section_props is not None else 0)
         outcome = outcomes.get(key_def)
         if outcome is None:
-            outcome = outcomes[key_def] = _properties(mat_def, out, mkeys, skeys, units, issues, links)
+            outcome = outcomes[key_def] = _properties(mat_def, section_props, out, mkeys, skeys, units, issues, links)
         refs, problem, owners = outcome
         if problem:
             issues.problem(member if problem[0] is None else problem[0], problem[1])
