@@ -18,12 +18,12 @@ from .geometry import Joint, Placements, Positions, read_joint
 from .links import Links, attr_index, read_links
 from .loads import read_loads
 from .members import read_members
-from .notes import NOTE_ASSIGNMENT, NOTE_IGNORED, NOTE_UNITS
+from .notes import NOTE_ASSIGNMENT, NOTE_IGNORED, NOTE_INEXACT, NOTE_UNITS
 from .places import Issues, label
 from .results import read_results
 from .supports import Support, read_support
 from .tree import assemble
-from .units import LENGTH, read_units
+from .units import LENGTH, QUANTITY, read_units
 
 #: schemas whose structural analysis entities the reader knows
 SCHEMAS = ("IFC4", "IFC4X3", "IFC4X3_ADD2", "IFC2X3")
@@ -170,6 +170,12 @@ def read_ifc(path: str | Path, *, model_name: str | None = None) -> SourceRead:
             loads.ignored[kind] = loads.ignored.get(kind, 0) + count
     for kind, count in sorted(loads.ignored.items()):
         issues.note(NOTE_IGNORED, f"{count} × {kind} not read (a pin-jointed truss model has no place for it)")
+    for dim in sorted(units.inexact):
+        issues.note(
+            NOTE_INEXACT,
+            f"{QUANTITY.get(dim, 'values')} converted to the model's units ({units.length}, {units.force}) with a "
+            "factor that has no exact decimal form (rounded to 40 significant digits)",
+        )
     issues.raise_if_any()
     built = assemble(file, model, joints, mem, ends.rigid, supports, loads, results, units, issues)
     return built
