@@ -16,7 +16,8 @@ Exit codes (documented in the README):
 1     the audit failed: a finding at or above ``--fail-on``
 2     bad input or usage; nothing was written
 3     a check crashed (reported under its own name); audit failed
-4     ``solve`` only: the model cannot be solved (mechanism or singular)
+4     ``solve`` only: the model cannot be solved (mechanism or singular), or a case of a model with
+      tension-only or compression-only members has no solution (the other cases are written)
 ====  ==========================================================
 """
 
@@ -385,7 +386,8 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             raise _UsageError("--digits must be between 1 and 200")
         from audit import precision
 
-        cases, _report = precision.solve_high_precision(model, args.digits, args.solver, timings=timings)
+        cases, report = precision.solve_high_precision(model, args.digits, args.solver, timings=timings)
+        unsolved = report.unsolved
         with stage(timings, "report"):
             text = exchange.dump_results(
                 model, cases, source=f"truss-audit {__version__} solve --digits {args.digits}", digits=args.digits
@@ -394,6 +396,7 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         from audit.solve import solve_model
 
         solution = solve_model(model, args.solver, timings=timings)
+        unsolved = tuple((s.case_id, s.message) for s in solution.nonlinear.unsolved) if solution.nonlinear else ()
         with stage(timings, "report"):
             text = exchange.dump_results(
                 model, solution.cases, source=f"truss-audit {__version__} solve ({solution.backend})"
@@ -403,6 +406,10 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if timings is not None:
         err.write(timings.render())
     out.write(f"wrote {args.output}: {len(model.load_cases)} load cases, {len(model.combinations)} combinations\n")
+    if unsolved:  # a non-linear model: the other cases were solved and written
+        for case_id, why in unsolved:
+            err.write(f"truss-audit: case {case_id!r} has no solution and is not in {args.output}: {why}\n")
+        return EXIT_UNSOLVABLE
     return EXIT_PASS
 
 
