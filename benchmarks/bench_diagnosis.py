@@ -53,7 +53,17 @@ from audit.solve import solve_model  # noqa: E402
 
 
 def load_baseline(folder: str) -> types.ModuleType:
-    """The diagnosis check of another version, from its two files in ``folder`` (its own module names)."""
+    """The diagnosis check of another version, from its files in ``folder`` (its own module names): the
+    single-module layout before the package (``diagnosis.py``, ``_diagnosis_causes.py`` and, when present,
+    ``_diagnosis_block.py``, registered under its old import name)."""
+    block = Path(folder) / "_diagnosis_block.py"
+    if block.exists():
+        bspec = importlib.util.spec_from_file_location("audit.checks._diagnosis_block", block)
+        assert bspec is not None
+        assert bspec.loader is not None
+        bmod = importlib.util.module_from_spec(bspec)
+        sys.modules[bspec.name] = bmod
+        bspec.loader.exec_module(bmod)
     spec = importlib.util.spec_from_file_location("baseline_diagnosis_causes", Path(folder) / "_diagnosis_causes.py")
     assert spec is not None
     assert spec.loader is not None
