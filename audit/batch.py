@@ -52,6 +52,8 @@ class BatchEntry:
     result: AuditResult | None = None  #: None when the model could not be read or the audit raised
     #: reader problems: (JSON path, message), for status "input_error"
     problems: tuple[tuple[str, str], ...] = ()
+    #: for each problem, the item its path points at by id (``member '9'``), or ""
+    problem_items: tuple[str, ...] = ()
     error: str = ""  #: one-line reason for "input_error" / "crashed"
     json_report: str | None = None  #: the per-model JSON report (audit.reporters.json_report), when rendered
     junit_report: str | None = None  #: the per-model JUnit XML (audit.reporters.junit), when rendered
@@ -116,7 +118,7 @@ def _tolerances(kwargs: Mapping[str, Any]) -> Any:
 def _engine_kwargs(kwargs: Mapping[str, Any]) -> dict[str, Any]:
     """audit_kwargs of the batch -> keyword arguments of :func:`audit.engine.audit`."""
     out: dict[str, Any] = {}
-    for key in ("select", "ignore"):
+    for key in ("only", "skip"):
         if key in kwargs:
             out[key] = tuple(kwargs[key])
     for key in ("digits", "backend"):
@@ -158,7 +160,13 @@ def audit_file(model_path: str, results_path: str | None, audit_kwargs: Mapping[
         problems = tuple((p.path, p.message) for p in exc.problems)
         first = problems[0][1] if problems else str(exc)
         return BatchEntry(
-            model_path, results_path, "input_error", time.perf_counter() - t0, problems=problems, error=first
+            model_path,
+            results_path,
+            "input_error",
+            time.perf_counter() - t0,
+            problems=problems,
+            problem_items=tuple(p.item for p in exc.problems),
+            error=first,
         )
     except OSError as exc:
         return BatchEntry(
@@ -222,7 +230,7 @@ def run_batch(
         models is not used.
     audit_kwargs
         Passed on to :func:`audit.engine.audit`: ``fail_on`` (a Severity or
-        its name), ``select``, ``ignore``, ``digits``, ``backend``, and the
+        its name), ``only``, ``skip``, ``digits``, ``backend``, and the
         tolerances, either ``tolerances`` (a Tolerances) or ``policy`` (a
         policy file) and ``tol`` (``NAME=VALUE`` overrides).
 
@@ -280,9 +288,8 @@ def render_summary(batch: BatchResult) -> str:
         size = f"{facts.get('dimensions', '')}D {facts.get('members', '')}" if facts else ""
         note = e.error
         if e.status == "input_error" and e.problems:
-            path, msg = e.problems[0]
             more = f" (+{len(e.problems) - 1} more)" if len(e.problems) > 1 else ""
-            note = f"{path}: {msg}{more}"
+            note = f"{_problem_text(e, 0)}{more}"
         rows.append((e.path, e.status, size, c["errors"], c["warnings"], c["checks_not_run"], f"{e.seconds:.2f}", note))
     table = tabulate(
         rows,
@@ -297,6 +304,13 @@ def render_summary(batch: BatchResult) -> str:
     )
 
 
+def _problem_text(e: BatchEntry, i: int) -> str:
+    """One reader problem as people read it: ``members[3] (member '9'): zero length ...``."""
+    path, msg = e.problems[i]
+    item = e.problem_items[i] if i < len(e.problem_items) else ""
+    return f"{path} ({item}): {msg}" if item else f"{path}: {msg}"
+
+
 def _entry_doc(e: BatchEntry) -> dict[str, Any]:
     doc: dict[str, Any] = {
         "path": e.path,
@@ -307,7 +321,11 @@ def _entry_doc(e: BatchEntry) -> dict[str, Any]:
     if e.error:
         doc["error"] = e.error
     if e.problems:
-        doc["problems"] = [{"path": p, "message": m} for p, m in e.problems]
+        items = e.problem_items or ("",) * len(e.problems)
+        doc["problems"] = [
+            {"path": p, **({"item": it} if it else {}), "message": m}
+            for (p, m), it in zip(e.problems, items, strict=False)
+        ]
     if e.json_report is not None:
         doc["report"] = json.loads(e.json_report)
     return doc
@@ -330,7 +348,7 @@ def _error_suite(e: BatchEntry) -> ET.Element:
     suite = ET.Element("testsuite", name=e.path, tests="1", failures="0", errors="1", skipped="0")
     case = ET.SubElement(suite, "testcase", classname=e.path, name="read" if e.status == "input_error" else "audit")
     err = ET.SubElement(case, "error", message=e.error, type=e.status)
-    err.text = "\n".join(f"{p}: {m}" for p, m in e.problems) or e.error
+    err.text = "\n".join(_problem_text(e, i) for i in range(len(e.problems))) or e.error
     return suite
 
 

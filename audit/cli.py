@@ -4,7 +4,7 @@ Commands
 --------
 ``truss-audit check MODEL [RESULTS] ...``   audit reported results (exit 0 pass, 1 fail)
 ``truss-audit solve MODEL -o RESULTS``      solve every case and write a results file
-``truss-audit rules``                       list every finding code from the registry
+``truss-audit explain [CODE]``               the finding codes, or what one code establishes and how to act
 
 Exit codes (documented in the README):
 
@@ -32,6 +32,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 from audit import __version__
 from audit.errors import InputError, Problem, UnsolvableError
 from audit.findings import AuditResult, Severity
+from audit.timing import Timings, stage
 
 if TYPE_CHECKING:
     from audit.model import Model
@@ -82,24 +83,27 @@ def _parser() -> _Parser:
     c.add_argument("--policy", metavar="PATH", help="JSON tolerance policy file")
     c.add_argument("--tol", action="append", default=[], metavar="NAME=VALUE", help="override one tolerance")
     c.add_argument(
-        "--select", action="append", default=[], metavar="CODE", help="keep only findings with these code prefixes"
+        "--only", action="append", default=[], metavar="CODE", help="keep only findings whose code starts with CODE"
     )
     c.add_argument(
-        "--ignore", action="append", default=[], metavar="CODE", help="drop findings with these code prefixes"
+        "--skip", action="append", default=[], metavar="CODE", help="drop findings whose code starts with CODE"
     )
     c.add_argument("--digits", type=int, default=30, help="significant digits of the high-precision recomputation")
     c.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
     c.add_argument("--jobs", type=int, default=1, help="models audited in parallel (processes)")
     c.add_argument("--quiet", action="store_true", help="print only the verdict line; no progress display")
     c.add_argument("--colour", action="store_true", help="colour the terminal report")
+    c.add_argument("--timings", action="store_true", help="print the time of each stage to stderr (one model only)")
 
     s = sub.add_parser("solve", help="solve every load case and combination and write a results file")
     s.add_argument("model", metavar="MODEL")
     s.add_argument("-o", "--output", required=True, metavar="RESULTS", help="results file to write")
     s.add_argument("--digits", type=int, default=None, help="write N significant digits from the high-precision path")
     s.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
+    s.add_argument("--timings", action="store_true", help="print the time of each stage to stderr")
 
-    sub.add_parser("rules", help="list every finding code with its severity and summary")
+    e = sub.add_parser("explain", help="list the finding codes, or explain one code")
+    e.add_argument("code", nargs="?", metavar="CODE", help="a finding code (e.g. EQ101) or a code prefix (e.g. ST)")
     return p
 
 
@@ -250,8 +254,10 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
     _check_outputs(outputs)
     refuse_same_path(outputs, inputs)
     tol = _tolerances(args)
-    model = exchange.load_model(model_path)
-    results = exchange.load_results(results_path, model) if results_path else None
+    timings = Timings() if args.timings else None
+    with stage(timings, "read"):
+        model = exchange.load_model(model_path)
+        results = exchange.load_results(results_path, model) if results_path else None
     progress = Progress(err, enabled=not args.quiet)
     try:
         result, ctx = engine.audit_with_context(
@@ -259,21 +265,25 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
             results,
             tolerances=tol,
             fail_on=Severity.parse(args.fail_on),
-            select=tuple(args.select),
-            ignore=tuple(args.ignore),
+            only=tuple(args.only),
+            skip=tuple(args.skip),
             digits=args.digits,
             backend=args.solver,
             inputs=tuple((Path(p).name, _sha256(p)) for p in inputs),
             progress=progress.step,
+            timings=timings,
         )
     finally:
         progress.close()
-    ctx_extra = engine.drawing_context(ctx, args.deformed_case)
-    if args.quiet:
-        out.write(f"{model_path}: {result.verdict}\n")
-    else:
-        out.write(text.render(result, model, {"colour": args.colour}))
-    _write_outputs(args, result, model, ctx_extra)
+    with stage(timings, "report"):
+        ctx_extra = engine.drawing_context(ctx, args.deformed_case)
+        if args.quiet:
+            out.write(f"{model_path}: {result.verdict}\n")
+        else:
+            out.write(text.render(result, model, {"colour": args.colour}))
+        _write_outputs(args, result, model, ctx_extra)
+    if timings is not None:
+        err.write(timings.render())
     if result.crashed:
         return EXIT_CRASH
     return EXIT_FAIL if result.verdict == "fail" else EXIT_PASS
@@ -291,6 +301,8 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise _UsageError("no model files found")
     if len(pairs) == 1:
         return _check_one(args, pairs[0][0], pairs[0][1], out, err)
+    if args.timings:
+        raise _UsageError("--timings takes a single model (the stages of a batch overlap)")
     from audit import batch
 
     _check_outputs([args.json, args.junit])
@@ -302,8 +314,8 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         jobs=max(1, args.jobs),
         audit_kwargs={
             "fail_on": args.fail_on,
-            "select": tuple(args.select),
-            "ignore": tuple(args.ignore),
+            "only": tuple(args.only),
+            "skip": tuple(args.skip),
             "digits": args.digits,
             "backend": args.solver,
             "policy": args.policy,
@@ -325,34 +337,62 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     from audit.fileio import atomic_write_text, refuse_same_path
 
     refuse_same_path([args.output], [args.model])
-    model = exchange.load_model(args.model)
+    timings = Timings() if args.timings else None
+    with stage(timings, "read"):
+        model = exchange.load_model(args.model)
     if args.digits is not None:
         if args.digits < 1 or args.digits > 200:
             raise _UsageError("--digits must be between 1 and 200")
         from audit import precision
 
-        cases, _report = precision.solve_high_precision(model, args.digits)
-        text = exchange.dump_results(
-            model, cases, source=f"truss-audit {__version__} solve --digits {args.digits}", digits=args.digits
-        )
+        cases, _report = precision.solve_high_precision(model, args.digits, args.solver, timings=timings)
+        with stage(timings, "report"):
+            text = exchange.dump_results(
+                model, cases, source=f"truss-audit {__version__} solve --digits {args.digits}", digits=args.digits
+            )
     else:
         from audit.solve import solve_model
 
-        solution = solve_model(model, args.solver)
-        text = exchange.dump_results(
-            model, solution.cases, source=f"truss-audit {__version__} solve ({solution.backend})"
-        )
-    atomic_write_text(args.output, text)
+        solution = solve_model(model, args.solver, timings=timings)
+        with stage(timings, "report"):
+            text = exchange.dump_results(
+                model, solution.cases, source=f"truss-audit {__version__} solve ({solution.backend})"
+            )
+    with stage(timings, "report"):
+        atomic_write_text(args.output, text)
+    if timings is not None:
+        err.write(timings.render())
     out.write(f"wrote {args.output}: {len(model.load_cases)} load cases, {len(model.combinations)} combinations\n")
     return EXIT_PASS
 
 
-def _rules(out: TextIO) -> int:
+def _explain(code: str | None, out: TextIO) -> int:
+    """The table of codes (all, or those starting with a prefix), or one code explained, from the registry."""
+    import textwrap
+
     from tabulate import tabulate
 
     from audit.engine import registry
 
-    rows = [(r.code, r.severity.label, r.family, r.summary) for r in registry().values()]
+    reg = registry()
+    wanted = (code or "").strip().upper()
+    rule = reg.get(wanted)
+    if rule is not None:
+        out.write(f"{rule.code} ({rule.severity.label}, {rule.family} check): {rule.summary}\n")
+        for title, body in (
+            ("What it establishes", rule.establishes),
+            ("Example finding", rule.example),
+            ("How to act on it", rule.action),
+        ):
+            wrapped = textwrap.fill(body, width=88, initial_indent="  ", subsequent_indent="  ")
+            out.write(f"\n{title}:\n{wrapped}\n")
+        return EXIT_PASS
+    rows = [(r.code, r.severity.label, r.family, r.summary) for r in reg.values() if r.code.startswith(wanted)]
+    if not rows:
+        raise _UsageError(
+            f"explain: no finding code is or starts with {code!r}; give a code such as EQ101 or a prefix such as ST "
+            "(truss-audit explain lists them all)"
+        )
     out.write(tabulate(rows, headers=["code", "severity", "check", "summary"], tablefmt="simple") + "\n")
     return EXIT_PASS
 
@@ -368,8 +408,8 @@ def main(argv: Sequence[str] | None = None, out: TextIO | None = None, err: Text
             return _check(args, out, err)
         if args.command == "solve":
             return _solve(args, out, err)
-        if args.command == "rules":
-            return _rules(out)
+        if args.command == "explain":
+            return _explain(args.code, out)
         _parser().print_help(out)
         return EXIT_INPUT
     except SystemExit as exc:  # argparse's --help and --version

@@ -1,7 +1,7 @@
 """Runs the checks on one model: builds the context, wraps crashing checks, filters.
 
 Data flow: model -> system (assembly, supports) -> factor -> stability ->
-solution -> precision -> checks -> outcomes -> filter (select / ignore) ->
+solution -> precision -> checks -> outcomes -> filter (only / skip) ->
 AuditResult.  No printing and no exit codes here.
 """
 
@@ -30,6 +30,7 @@ from audit.errors import UnsolvableError
 from audit.findings import AuditResult, CheckOutcome, Finding, Location, Severity, Status
 from audit.model import Model, Results
 from audit.solve import build_system, factorize_system, solve_with
+from audit.timing import Timings, stage
 from audit.tolerances import Tolerances
 
 #: the check families, in the order they run and are reported
@@ -59,38 +60,52 @@ def build_context(
     digits: int = 30,
     backend: str = "auto",
     progress: Callable[[str], None] | None = None,
+    timings: Timings | None = None,
 ) -> Context:
-    """Assemble, factorise, analyse stability, solve and refine: the immutable context."""
+    """Assemble, factorise, analyse stability, solve and refine: the immutable context.
+
+    ``timings``, when given, receives the seconds of each stage (:mod:`audit.timing`).
+    """
     say = progress or (lambda _s: None)
     tol = tolerances or Tolerances()
     results = results if results is not None else model.results
     say("assembling the stiffness matrix")
-    system = build_system(model)
+    with stage(timings, "build"):
+        system = build_system(model)
     factor = None
     cond = float("nan")
     reason = ""
     say("factorising the restrained stiffness")
     try:
-        factor, cond = factorize_system(model, system, backend)
+        with stage(timings, "factorise"):
+            factor, cond = factorize_system(model, system, backend)
     except UnsolvableError as exc:
         reason = exc.message
     say("checking stability and determinacy")
-    stab = stability.analyse(model, system, factor, condition=cond)
+    with stage(timings, "stability"):
+        stab = stability.analyse(model, system, factor, condition=cond)
     solution = None
     if factor is not None and stab.stable:
         say("recomputing displacements, forces and reactions")
-        solution = solve_with(model, system, factor, cond)
+        try:
+            with stage(timings, "recompute"):
+                solution = solve_with(model, system, factor, cond)
+        except UnsolvableError as exc:
+            reason = exc.message
     elif not reason:
         reason = "the model is unstable: " + stab.summary()
     prec = None
     prec_fault = ""
     if solution is not None and factor is not None:
         say("refining in high precision and proving error bounds")
+        t0 = timings.clock() if timings is not None else 0.0
         try:
             prec = precision.analyse(model, system, factor, solution, results, digits=digits)
         except Exception as exc:  # reported as a crash of the precision stage, never as a pass
             last = traceback.extract_tb(exc.__traceback__)[-1]
             prec_fault = f"{type(exc).__name__}: {exc} at {last.filename.rsplit('/', 1)[-1]}:{last.lineno}"
+        if timings is not None:
+            _record_precision(timings, timings.clock() - t0, prec)
     return Context(
         model=model,
         results=results,
@@ -106,16 +121,27 @@ def build_context(
     )
 
 
+def _record_precision(timings: Timings, seconds: float, prec: Any) -> None:
+    """Split the precision stage into ``refine`` and ``certificate`` (the report's own timings)."""
+    cert = dict(prec.timings).get("certificate", 0.0) if prec is not None else 0.0
+    timings.add("refine", seconds - cert)
+    timings.add("certificate", cert)
+
+
 def run_checks(
-    ctx: Context, modules: Iterable[ModuleType] = CHECK_MODULES
+    ctx: Context, modules: Iterable[ModuleType] = CHECK_MODULES, timings: Timings | None = None
 ) -> tuple[tuple[CheckOutcome, ...], tuple[str, ...]]:
-    """Run every check family; a crashing family becomes an AU901 error under its own name."""
+    """Run every check family; a crashing family becomes an AU901 error under its own name.
+
+    ``timings``: the diagnosis family is recorded as ``diagnosis``, all others as ``checks``.
+    """
     outcomes: list[CheckOutcome] = []
     crashed: list[str] = []
     for module in modules:
         check_id = module.CHECK_ID
         try:
-            outcomes.extend(module.run(ctx))
+            with stage(timings, "diagnosis" if module is diagnosis else "checks"):
+                outcomes.extend(module.run(ctx))
         except Exception as exc:  # a crashing check must never pass silently
             crashed.append(check_id)
             last = traceback.extract_tb(exc.__traceback__)[-1]
@@ -139,22 +165,23 @@ def run_checks(
     return tuple(outcomes), tuple(crashed)
 
 
-def _keep(code: str, select: tuple[str, ...], ignore: tuple[str, ...]) -> bool:
-    if select and not any(code.startswith(s) for s in select):
+def _keep(code: str, only: tuple[str, ...], skip: tuple[str, ...]) -> bool:
+    if only and not any(code.startswith(s) for s in only):
         return False
-    return not any(code.startswith(i) for i in ignore)
+    return not any(code.startswith(i) for i in skip)
 
 
 def filter_outcomes(
-    outcomes: tuple[CheckOutcome, ...], select: tuple[str, ...] = (), ignore: tuple[str, ...] = ()
+    outcomes: tuple[CheckOutcome, ...], only: tuple[str, ...] = (), skip: tuple[str, ...] = ()
 ) -> tuple[CheckOutcome, ...]:
-    """The decision step after all checks ran: drop findings whose codes are not selected or are ignored.
+    """The decision step after all checks ran: keep only the findings whose codes start with one of ``only``
+    (all when empty) and drop those whose codes start with one of ``skip``.
 
     AU9xx (engine) findings are never dropped.
     """
     out = []
     for o in outcomes:
-        kept = tuple(f for f in o.findings if f.code.startswith("AU9") or _keep(f.code, select, ignore))
+        kept = tuple(f for f in o.findings if f.code.startswith("AU9") or _keep(f.code, only, skip))
         out.append(replace(o, findings=kept))
     return tuple(out)
 
@@ -185,18 +212,25 @@ def audit_with_context(
     *,
     tolerances: Tolerances | None = None,
     fail_on: Severity = Severity.ERROR,
-    select: tuple[str, ...] = (),
-    ignore: tuple[str, ...] = (),
+    only: tuple[str, ...] = (),
+    skip: tuple[str, ...] = (),
     digits: int = 30,
     backend: str = "auto",
     inputs: tuple[tuple[str, str], ...] = (),
     progress: Callable[[str], None] | None = None,
+    timings: Timings | None = None,
 ) -> tuple[AuditResult, Context]:
-    """Audit ``model`` against ``results``; also return the context the checks read."""
-    ctx = build_context(model, results, tolerances=tolerances, digits=digits, backend=backend, progress=progress)
+    """Audit ``model`` against ``results``; also return the context the checks read.
+
+    ``timings``, when given, receives the seconds of each stage (:mod:`audit.timing`); nothing of it
+    goes into the result.
+    """
+    ctx = build_context(
+        model, results, tolerances=tolerances, digits=digits, backend=backend, progress=progress, timings=timings
+    )
     if progress is not None:
         progress("running the checks")
-    outcomes, crashed = run_checks(ctx)
+    outcomes, crashed = run_checks(ctx, timings=timings)
     if ctx.precision_fault:
         crashed = (*crashed, "precision-stage")
         outcomes = (
@@ -234,7 +268,7 @@ def audit_with_context(
             ),
             *outcomes,
         )
-    outcomes = filter_outcomes(outcomes, select, ignore)
+    outcomes = filter_outcomes(outcomes, only, skip)
     result = AuditResult(
         title=model.title,
         outcomes=outcomes,

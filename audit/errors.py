@@ -16,14 +16,23 @@ class Problem:
     """One thing wrong with an input file.
 
     ``path`` is a JSON path such as ``members[3].end``, ``$`` for the whole
-    document, or ``line 4, column 7`` for a JSON syntax error.
+    document, or ``line 4, column 7`` for a JSON syntax error.  ``item`` names
+    the item a positional path points at by its id (``member '9'``), when it
+    has one, so that ``members[3] (member '9'): zero length ...`` can be found
+    in the file without counting.
     """
 
     path: str
     message: str
+    item: str = ""
+
+    @property
+    def place(self) -> str:
+        """The path, followed by the item's name in brackets when there is one."""
+        return f"{self.path} ({self.item})" if self.item else self.path
 
     def __str__(self) -> str:
-        return f"{self.path}: {self.message}"
+        return f"{self.place}: {self.message}"
 
 
 class InputError(Exception):
@@ -37,7 +46,7 @@ class InputError(Exception):
     def __str__(self) -> str:
         if not self.problems:
             return f"{self.file}: $: invalid input"
-        return "\n".join(f"{self.file}: {p.path}: {p.message}" for p in self.problems)
+        return "\n".join(f"{self.file}: {p}" for p in self.problems)
 
     def __reduce__(self) -> tuple[type[InputError], tuple[tuple[Problem, ...], str]]:
         return (InputError, (self.problems, self.file))

@@ -17,7 +17,7 @@ that :mod:`audit.precision` can start from the input exactly as written.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from fractions import Fraction
 
 import numpy as np
@@ -27,6 +27,20 @@ FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
 AXES = ("x", "y", "z")
+
+#: member behaviours (FORMAT.md, additions to version 1), by their code in :attr:`Model.behaviour`:
+#: 0 linear, 1 tension only, -1 compression only (the sign the axial force must have when active)
+BEHAVIOURS: dict[str, int] = {"linear": 0, "tension_only": 1, "compression_only": -1}
+BEHAVIOUR_NAMES: dict[int, str] = {v: k for k, v in BEHAVIOURS.items()}
+
+
+def _no_floats() -> FloatArray:
+    return np.zeros(0, dtype=np.float64)
+
+
+def _no_ints() -> IntArray:
+    return np.zeros(0, dtype=np.int64)
+
 
 #: exact factors to SI (metre, newton); lbf = 0.45359237 kg * 9.80665 m/s^2 (exact by definition)
 LENGTH_UNITS: dict[str, Fraction] = {
@@ -75,10 +89,20 @@ class LoadCase:
     length_error_text: tuple[tuple[int, str], ...] = ()
     #: (restraint index, decimal text)
     settlement_text: tuple[tuple[int, str], ...] = ()
+    #: self weight (FORMAT.md additions): the factor f, and its text ("" when the case has no self weight)
+    self_weight: float = 0.0
+    self_weight_text: str = ""
+    #: unit direction of the self weight; () means the default (-y in 2D, -z in 3D)
+    self_weight_direction: tuple[float, ...] = ()
+    self_weight_direction_text: tuple[str, ...] = ()  #: the direction as written (unnormalised)
 
     @property
     def has_initial_strain(self) -> bool:
         return bool(np.any(self.temperature) or np.any(self.length_error))
+
+    @property
+    def has_self_weight(self) -> bool:
+        return bool(self.self_weight_text) or self.self_weight != 0.0
 
 
 @dataclass(frozen=True)
@@ -170,6 +194,10 @@ class Model:
     restraint_dir_text: tuple[tuple[str, ...], ...] = ()  #: raw (unnormalised) direction
     spring_dir_text: tuple[tuple[str, ...], ...] = ()
     spring_k_text: tuple[str, ...] = ()
+    # --- additions to version 1 (FORMAT.md): both empty when the file uses none -----------
+    unit_weight: FloatArray = field(default_factory=_no_floats)  #: (n_members,) NaN where not given
+    unit_weight_text: tuple[str, ...] = ()  #: per member, "" where not given
+    behaviour: IntArray = field(default_factory=_no_ints)  #: (n_members,) int64 codes of BEHAVIOURS
 
     # ------------------------------------------------------------------ sizes
     @property
@@ -187,6 +215,17 @@ class Model:
     @property
     def n_restraints(self) -> int:
         return int(self.restraint_node.shape[0])
+
+    @property
+    def is_nonlinear(self) -> bool:
+        """True when some member is tension-only or compression-only (superposition does not hold)."""
+        return bool(self.behaviour.size and np.any(self.behaviour))
+
+    def behaviour_codes(self) -> IntArray:
+        """(n_members,) int64 behaviour code of every member (0 where the model gives none)."""
+        if self.behaviour.size == self.n_members:
+            return self.behaviour
+        return np.zeros(self.n_members, dtype=np.int64)
 
     # ------------------------------------------------------------- geometry
     def member_vectors(self) -> FloatArray:

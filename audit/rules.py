@@ -2,16 +2,19 @@
 
 Every code a check may raise is declared by its check module in a ``RULES``
 tuple; this module collects them from the explicit list of check modules in
-:mod:`audit.engine` and validates them (unique, well formed).  ``truss-audit
-rules`` prints the list generated from here; nothing is kept by hand.
+:mod:`audit.engine` and validates them (unique, well formed).  Each record also carries
+what a finding with the code establishes, an example finding and how to act on
+it (from :mod:`audit.rule_guide`); ``truss-audit explain`` and the SARIF rules
+section are generated from here; nothing is kept by hand.
 """
 
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from audit.findings import Severity
+from audit.rule_guide import GUIDE
 
 CODE_PATTERN = re.compile(r"^[A-Z]{2}\d{3}$")
 
@@ -20,8 +23,11 @@ CODE_PATTERN = re.compile(r"^[A-Z]{2}\d{3}$")
 class Rule:
     code: str  #: two capital letters (the family) and three digits, e.g. "EQ101"
     severity: Severity  #: default severity of a finding with this code
-    summary: str  #: one line, shown by ``truss-audit rules``
+    summary: str  #: one line, shown by ``truss-audit explain``
     family: str  #: the check module that raises it
+    establishes: str = ""  #: what a finding with this code establishes (filled from audit.rule_guide)
+    example: str = ""  #: an example finding's message (invented, for illustration)
+    action: str = ""  #: how to act on the finding
 
 
 #: codes owned by the engine itself
@@ -32,7 +38,7 @@ ENGINE_RULES = (
 
 
 def collect(rule_sets: tuple[tuple[Rule, ...], ...]) -> dict[str, Rule]:
-    """Merge rule tuples into one registry keyed by code; reject duplicates and malformed codes."""
+    """Merge rule tuples into one registry keyed by code; reject duplicates and malformed codes; attach the guide."""
     registry: dict[str, Rule] = {}
     for rules in rule_sets:
         for rule in rules:
@@ -42,5 +48,8 @@ def collect(rule_sets: tuple[tuple[Rule, ...], ...]) -> dict[str, Rule]:
                 raise ValueError(
                     f"finding code {rule.code} declared twice ({registry[rule.code].family}, {rule.family})"
                 )
+            guide = GUIDE.get(rule.code)  # a code without an entry is caught by tests/test_rules.py
+            if guide is not None:
+                rule = replace(rule, establishes=guide[0], example=guide[1], action=guide[2])
             registry[rule.code] = rule
     return dict(sorted(registry.items()))

@@ -30,6 +30,8 @@ import scipy.sparse as sp
 from audit import linsolve, stiffness
 from audit.errors import UnsolvableError
 from audit.model import AXES, FloatArray, IntArray, Model
+from audit.selfweight import self_weight_loads
+from audit.timing import Timings, stage
 
 #: a scaled restrained K whose estimated 1-norm condition exceeds this is refused as singular
 SINGULAR_CONDITION = 1.0e14
@@ -174,9 +176,9 @@ def _springs_only(model: Model) -> Model:
 
 
 def case_vectors(model: Model, case_index: int) -> tuple[FloatArray, FloatArray, FloatArray]:
-    """(f, f0, δ0) of one load case: nodal loads, equivalent loads, free elongations (flat arrays)."""
+    """(f, f0, δ0) of one load case: nodal loads (self weight included), equivalent loads, free elongations."""
     lc = model.load_cases[case_index]
-    f = lc.loads.reshape(-1)
+    f = (lc.loads + self_weight_loads(model, lc)).reshape(-1) if lc.has_self_weight else lc.loads.reshape(-1)
     if lc.has_initial_strain:
         d0 = stiffness.initial_elongation(model, lc.temperature, lc.length_error)
     else:
@@ -280,15 +282,23 @@ def _inverse_one_norm(factor: linsolve.Factor, dsq: FloatArray, max_iter: int = 
     return max(est, alt)
 
 
-def solve_model(model: Model, backend: str = "auto") -> Solution:
-    """Solve every load case and combination.  Raises UnsolvableError for a mechanism."""
-    system = build_system(model)
-    factor, cond = factorize_system(model, system, backend)
-    return solve_with(model, system, factor, cond)
+def solve_model(model: Model, backend: str = "auto", timings: Timings | None = None) -> Solution:
+    """Solve every load case and combination.  Raises UnsolvableError for a mechanism.
+
+    ``timings`` (optional) receives the stages ``build``, ``factorise`` and ``recompute``.
+    """
+    with stage(timings, "build"):
+        system = build_system(model)
+    with stage(timings, "factorise"):
+        factor, cond = factorize_system(model, system, backend)
+    with stage(timings, "recompute"):
+        return solve_with(model, system, factor, cond)
 
 
 def solve_with(model: Model, system: System, factor: linsolve.Factor, cond: float = float("nan")) -> Solution:
     """Solve all cases with an existing factor."""
+    if model.is_nonlinear:
+        raise UnsolvableError("tension-only or compression-only members need the non-linear solver (not yet built)")
     nc = len(model.load_cases)
     nd = model.n_dofs
     if nc == 0:

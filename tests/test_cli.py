@@ -1,4 +1,4 @@
-"""The command line: exit codes, usage errors, and the output of ``rules`` and ``solve``.
+"""The command line: exit codes, usage errors, and the output of ``explain`` and ``solve``.
 
 ``audit.cli.main(argv, out, err) -> int`` never raises for bad input or usage:
 exit 0 pass / written, 1 the audit failed, 2 bad input or usage (nothing
@@ -102,11 +102,11 @@ def solved(tmp_path: Path, model_file: Path) -> dict[str, Any]:
     return json.loads(out_path.read_text(encoding="utf-8"))
 
 
-# --------------------------------------------------------------------------- rules
-def test_rules_lists_every_registered_code() -> None:
+# --------------------------------------------------------------------------- explain
+def test_explain_lists_every_registered_code() -> None:
     from audit.engine import registry
 
-    code, out, err = run_cli(["rules"])
+    code, out, err = run_cli(["explain"])
     assert code == 0, err
     lines = out.splitlines()
     assert lines[0].split() == ["code", "severity", "check", "summary"]
@@ -117,11 +117,51 @@ def test_rules_lists_every_registered_code() -> None:
         assert row.split(None, 3) == [rule.code, rule.severity.label, rule.family, rule.summary]
 
 
-def test_rules_are_sorted_and_include_the_engine_codes() -> None:
-    _code, out, _err = run_cli(["rules"])
+def test_explain_codes_are_sorted_and_include_the_engine_codes() -> None:
+    _code, out, _err = run_cli(["explain"])
     codes = [ln.split()[0] for ln in out.splitlines()[2:] if ln.strip()]
     assert codes == sorted(codes)
     assert {"AU901", "AU902"} <= set(codes)
+
+
+def test_explain_one_code_gives_what_it_establishes_an_example_and_what_to_do() -> None:
+    from audit.engine import registry
+
+    rule = registry()["EQ101"]
+    code, out, err = run_cli(["explain", "eq101"])
+    assert code == 0, err
+    assert out.startswith(f"EQ101 (error, equilibrium check): {rule.summary}\n")
+    flat = " ".join(out.split())
+    for title, body in (
+        ("What it establishes:", rule.establishes),
+        ("Example finding:", rule.example),
+        ("How to act on it:", rule.action),
+    ):
+        assert f"{title} {' '.join(body.split())}" in flat
+
+
+def test_explain_a_prefix_lists_that_family() -> None:
+    code, out, _err = run_cli(["explain", "ST"])
+    assert code == 0
+    codes = [ln.split()[0] for ln in out.splitlines()[2:] if ln.strip()]
+    assert codes
+    assert all(c.startswith("ST") for c in codes)
+
+
+def test_explain_an_unknown_code_is_a_usage_error() -> None:
+    code, out, err = run_cli(["explain", "ZZ999"])
+    assert code == 2
+    assert "ZZ999" in err
+    assert not out
+
+
+@pytest.mark.parametrize(
+    "argv", [["rules"], ["check", "a.json", "--select", "EQ"], ["check", "a.json", "--ignore", "EQ"]]
+)
+def test_the_old_names_are_gone(argv: list[str]) -> None:
+    code, _out, err = run_cli(argv)
+    assert code == 2
+    assert "invalid choice" in err or "unrecognized arguments" in err
 
 
 # --------------------------------------------------------------------------- usage
@@ -138,7 +178,7 @@ def test_rules_are_sorted_and_include_the_engine_codes() -> None:
         ["solve"],
         ["solve", "a.json"],
         ["solve", "a.json", "-o"],
-        ["rules", "extra"],
+        ["explain", "EQ101", "extra"],
     ],
     ids=[
         "unknown-command",
@@ -151,7 +191,7 @@ def test_rules_are_sorted_and_include_the_engine_codes() -> None:
         "solve-without-model",
         "solve-without-output",
         "solve-output-without-path",
-        "rules-with-argument",
+        "explain-with-two-arguments",
     ],
 )
 def test_usage_error_exits_2(argv: list[str]) -> None:
@@ -166,7 +206,7 @@ def test_no_command_prints_help_and_exits_2() -> None:
     assert code == 2
     assert "check" in out
     assert "solve" in out
-    assert "rules" in out
+    assert "explain" in out
 
 
 def test_version_returns_0_without_raising() -> None:
@@ -380,8 +420,8 @@ def _python_m(args: list[str], cwd: Path) -> subprocess.CompletedProcess[str]:
     )
 
 
-def test_python_m_audit_rules(tmp_path: Path) -> None:
-    proc = _python_m(["rules"], tmp_path)
+def test_python_m_audit_explain(tmp_path: Path) -> None:
+    proc = _python_m(["explain"], tmp_path)
     assert proc.returncode == 0, proc.stderr
     assert "AU901" in proc.stdout
 

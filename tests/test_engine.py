@@ -1,5 +1,5 @@
 """The engine (``audit.engine``): a crashing check is reported under its own name and fails the audit, the
-select/ignore step never drops an engine finding, and a crashing high-precision stage leaves the float64
+only/skip step never drops an engine finding, and a crashing high-precision stage leaves the float64
 comparison in place and says so.
 
 What is expected here is the engine's own contract (``FORMAT.md``: exit code 3 when a check crashed; the
@@ -99,7 +99,7 @@ def test_run_checks_wraps_each_module_and_runs_the_rest() -> None:
     assert outcomes[2].status is Status.PASS
 
 
-# ------------------------------------------------------------------ select / ignore
+# ------------------------------------------------------------------ only / skip
 def _outcomes() -> tuple[CheckOutcome, ...]:
     def f(code: str, sev: Severity) -> Finding:
         return Finding(code=code, severity=sev, message=code)
@@ -124,7 +124,7 @@ def _outcomes() -> tuple[CheckOutcome, ...]:
 
 
 @pytest.mark.parametrize(
-    ("select", "ignore", "kept"),
+    ("only", "skip", "kept"),
     [
         ((), (), {"ST001", "ST002", "KH107", "AU901", "AU902"}),
         (("KH",), (), {"KH107", "AU901", "AU902"}),
@@ -135,21 +135,21 @@ def _outcomes() -> tuple[CheckOutcome, ...]:
         (("ST",), ("ST",), {"AU901", "AU902"}),
         (("XX",), (), {"AU901", "AU902"}),
     ],
-    ids=["nothing", "select-KH", "select-one-code", "ignore-ST", "ignore-AU", "ignore-AU-codes", "both", "no-match"],
+    ids=["nothing", "only-KH", "only-one-code", "skip-ST", "skip-AU", "skip-AU-codes", "both", "no-match"],
 )
-def test_filter_outcomes_select_and_ignore_never_drop_engine_findings(
-    select: tuple[str, ...], ignore: tuple[str, ...], kept: set[str]
+def test_filter_outcomes_only_and_skip_never_drop_engine_findings(
+    only: tuple[str, ...], skip: tuple[str, ...], kept: set[str]
 ) -> None:
     before = _outcomes()
-    after = engine.filter_outcomes(before, select, ignore)
+    after = engine.filter_outcomes(before, only, skip)
     assert {f.code for o in after for f in o.findings} == kept
     # outcomes themselves (their checks and statuses) are never dropped, only findings
     assert [(o.check, o.status) for o in after] == [(o.check, o.status) for o in before]
 
 
-def test_ignoring_engine_codes_does_not_hide_a_crash(monkeypatch: pytest.MonkeyPatch) -> None:
+def test_skipping_engine_codes_does_not_hide_a_crash(monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setattr(stiffness_health, "run", _boom)
-    result = engine.audit(_model(CLEAN), ignore=("AU",), select=("EQ",))
+    result = engine.audit(_model(CLEAN), skip=("AU",), only=("EQ",))
     assert "AU901" in {f.code for f in result.findings}
     assert result.verdict == "fail"
 

@@ -336,7 +336,7 @@ def test_error_text_names_file_path_and_message() -> None:
         load_model(DATA / "three_errors.json")
     lines = str(exc.value).splitlines()
     assert len(lines) == 3
-    assert lines[1] == f"{DATA / 'three_errors.json'}: members[1].end: unknown node 'Q'"
+    assert lines[1] == f"{DATA / 'three_errors.json'}: members[1].end (member '2'): unknown node 'Q'"
     assert exc.value.file == str(DATA / "three_errors.json")
 
 
@@ -541,3 +541,58 @@ def test_bulk_check_of_stiffness_entries_implies_schema_valid(entries: list[Any]
     if exchange._bulk_dofs(parsed, None):
         for e in parsed:
             assert list(exchange._validator("model#dof").iter_errors(e)) == []
+
+
+# ------------------------------------------------------------------------ items named by id as well as position
+def _zero_length(doc: Doc) -> None:
+    doc["nodes"][3]["x"], doc["nodes"][3]["y"] = 4, 0  # D onto B: member 5 (B-D) has no length
+
+
+def _nodes_duplicate(doc: Doc) -> None:
+    doc["nodes"][2]["id"] = "A"
+
+
+@pytest.mark.parametrize(
+    ("change", "line"),
+    [
+        (_zero_length, "members[4] (member '5'): zero length: its end nodes 'B' and 'D' are at the same point"),
+        (_set(["members", 1, "end"], "Q"), "members[1].end (member '2'): unknown node 'Q'"),
+        (_set(["nodes", 1, "x"], "four"), "nodes[1].x (node 'B'): "),
+        (_set(["supports", 1, "restrain"], ["w"]), "supports[1].restrain[0] (support at node 'C'): "),
+        (
+            _set(["load_cases", 0, "loads", 0, "fy"], "x"),
+            "load_cases[0].loads[0].fy (load case 'snow', load at node 'D'): ",
+        ),
+        (
+            _set(["load_cases", 1, "temperature_changes", 0, "member"], "9"),
+            "load_cases[1].temperature_changes[0].member (load case 'heat', temperature change of member '9'): ",
+        ),
+        (_set(["combinations", 0, "factors", "snow"], "x"), "combinations[0].factors.snow (combination 'design'): "),
+    ],
+    ids=["member-zero-length", "member-unknown-node", "node", "support", "load", "temperature-change", "combination"],
+)
+def test_an_item_found_by_position_is_also_named_by_its_id(change: Callable[[Doc], None], line: str) -> None:
+    """The issue's wording: ``members[3] (member '9'): zero length ...``; the JSON path itself stays a pure path."""
+    doc = example_doc()
+    change(doc)
+    with pytest.raises(InputError) as exc:
+        parse_model(json.dumps(doc), "m.json")
+    lines = str(exc.value).splitlines()
+    assert any(ln.startswith(f"m.json: {line}") for ln in lines), lines
+    assert all("(" not in p.path for p in exc.value.problems)
+
+
+def test_an_item_without_a_usable_id_is_named_by_position_only() -> None:
+    doc = example_doc()
+    del doc["nodes"][1]["id"]
+    with pytest.raises(InputError) as exc:
+        parse_model(json.dumps(doc), "m.json")
+    assert [(p.path, p.item) for p in exc.value.problems][:1] == [("nodes[1].id", "")]
+
+
+def test_results_entries_are_named_by_their_ids_in_the_path() -> None:
+    """Results are maps keyed by case, node and member id (FORMAT.md), so their paths already name the item."""
+    model = parse_model(json.dumps(example_doc()), "m.json")
+    results = {"format": "truss-audit-results", "version": 1, "cases": {"snow": {"axial_forces": {"3": "x"}}}}
+    found = problems_of(lambda: parse_results(json.dumps(results), model, "r.json"))
+    assert found[0][0] == 'cases.snow.axial_forces["3"]'

@@ -34,9 +34,11 @@ ROOT = Path(__file__).resolve().parents[1]
 CORPUS = ROOT / "fuzz" / "corpus"
 
 #: a place in an input file, as the reader names it: ``$``, ``line 4, column 7`` or a JSON path such as
-#: ``members[3].end``, ``cases.snow.axial_forces["99"]`` or ``["odd key"].x``
+#: ``members[3].end``, ``cases.snow.axial_forces["99"]`` or ``["odd key"].x``, then the item it points at by id
+#: when it has one (``members[3] (member '9')``)
 PLACE = re.compile(
-    r'^(\$|line \d+(, column \d+)?|([A-Za-z_][\w-]*|\["(\\.|[^"\\])*"\])(\[\d+\]|\.[\w-]+|\["(\\.|[^"\\])*"\])*)(?=: )'
+    r'^(\$|line \d+(, column \d+)?|([A-Za-z_][\w-]*|\["(\\.|[^"\\])*"\])(\[\d+\]|\.[\w-]+|\["(\\.|[^"\\])*"\])*)'
+    r"( \([a-z ]+ .*\))?(?=: )"
 )
 
 BUDGET = settings(

@@ -1,4 +1,4 @@
-"""The finding-code registry: every code is well formed, documented, listed by ``truss-audit rules``,
+"""The finding-code registry: every code is well formed, documented, listed by ``truss-audit explain``,
 and raised by at least one data case run through the whole engine.
 
 The data cases are the files under ``tests/cases/``, ``tests/data/stability/``, ``tests/data/rules/`` and
@@ -91,6 +91,14 @@ def test_code_is_well_formed_and_documented(code: str) -> None:
     assert rule.summary.strip()
     assert len(rule.summary) <= 200
     assert rule.family
+    for text in (rule.establishes, rule.example, rule.action):
+        assert len(text.split()) >= 2, f"{code}: every code says what it establishes, an example and what to do"
+
+
+def test_the_guide_explains_only_registered_codes() -> None:
+    from audit.rule_guide import GUIDE
+
+    assert set(GUIDE) <= set(REGISTRY), sorted(set(GUIDE) - set(REGISTRY))
 
 
 @pytest.mark.parametrize("code", sorted(REGISTRY))
@@ -153,9 +161,9 @@ def test_slow_cases_declare_the_codes_they_stand_for() -> None:
         assert code in _codes(path)
 
 
-def test_rules_command_lists_every_code() -> None:
+def test_explain_command_lists_every_code() -> None:
     out = io.StringIO()
-    assert main(["rules"], out=out, err=io.StringIO()) == 0
+    assert main(["explain"], out=out, err=io.StringIO()) == 0
     listed = {line.split()[0] for line in out.getvalue().splitlines()[2:] if line.strip()}
     assert listed == set(REGISTRY)
 

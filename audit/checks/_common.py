@@ -17,6 +17,7 @@ from audit import stiffness
 from audit.context import Context
 from audit.findings import CheckOutcome, Finding, Location, Status
 from audit.model import AXES, CaseResults, FloatArray, Model
+from audit.selfweight import self_weight_loads
 from audit.tolerances import Tolerances
 
 BoolArray = NDArray[np.bool_]
@@ -53,7 +54,7 @@ BOUND_SHARE = 1e-6
 class CaseActions:
     """What acts in one load case or combination (a combination: the factored sum of its cases)."""
 
-    loads: FloatArray  #: (n_nodes, dim) nodal loads
+    loads: FloatArray  #: (n_nodes, dim) nodal loads, self weight included
     free_elongation: FloatArray  #: (n_members,) alpha*delta*L + length error
     settlement: FloatArray  #: (n_restraints,) prescribed displacement along each restraint
     is_combination: bool
@@ -67,7 +68,8 @@ def case_actions(model: Model, case_id: str) -> CaseActions | None:
     if ci is not None:
         lc = model.load_cases[ci]
         d0 = stiffness.initial_elongation(model, lc.temperature, lc.length_error)
-        return _actions(model, lc.loads.copy(), np.asarray(d0, dtype=np.float64), lc.settlement.copy(), False)
+        loads = lc.loads + self_weight_loads(model, lc)
+        return _actions(model, loads, np.asarray(d0, dtype=np.float64), lc.settlement.copy(), False)
     bi = model.combination_index(case_id)
     if bi is None:
         return None
@@ -76,7 +78,7 @@ def case_actions(model: Model, case_id: str) -> CaseActions | None:
     g = np.zeros(model.n_restraints)
     for idx, factor, _text in model.combinations[bi].factors:
         lc = model.load_cases[idx]
-        loads += factor * lc.loads
+        loads += factor * (lc.loads + self_weight_loads(model, lc))
         d0 += factor * stiffness.initial_elongation(model, lc.temperature, lc.length_error)
         g += factor * lc.settlement
     return _actions(model, loads, d0, g, True)

@@ -11,11 +11,13 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Callable
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
 
 from ..model import AXES, Model, Units
+from .additions import _member_additions, _self_weight
 from .bulk import _MISSING, _Columns
 from .cases import _case_ids, _combinations, _load_case
 from .problems import Path_, _path_str, _Problems
@@ -171,8 +173,12 @@ def _build_model(doc: dict[str, Any], probs: _Problems, cols: _Columns) -> Model
     sup = _supports(doc, dim, node_index, probs)
     cases, combos = _case_ids(doc, probs)
     n, m = len(nodes), len(members)
+    additions = _member_additions(doc, members, probs, cols)
     load_cases = tuple(
-        _load_case(lc, k, dim, units, node_index, member_index, has_alpha, sup, n, m, probs)
+        replace(
+            _load_case(lc, k, dim, units, node_index, member_index, has_alpha, sup, n, m, probs),
+            **_self_weight(lc, ("load_cases", k), dim, additions, member_ids, probs),
+        )
         for k, lc in enumerate(doc.get("load_cases", []))
     )
     combinations = _combinations(doc, cases, combos, probs)
@@ -208,4 +214,7 @@ def _build_model(doc: dict[str, Any], probs: _Problems, cols: _Columns) -> Model
         restraint_dir_text=tuple(sup.dir_texts),
         spring_dir_text=tuple(sup.spring_dir_texts),
         spring_k_text=tuple(sup.spring_k_text),
+        unit_weight=additions.unit_weight,
+        unit_weight_text=additions.unit_weight_text,
+        behaviour=additions.behaviour,
     )

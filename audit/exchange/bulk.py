@@ -101,6 +101,8 @@ _bulk_member = _bulk_flat(
         "alpha": "num",
         "material": "str",
         "section": "str",
+        "unit_weight": "num",
+        "behaviour": "str",  # its value is checked in the meaning stage (build.py), with the allowed names
     },
     ("id", "start", "end"),
 )

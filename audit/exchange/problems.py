@@ -55,12 +55,53 @@ class _Problems:
     def error(self, doc: Any, name: str) -> InputError:
         order = _Order(doc)
         ranked = sorted(enumerate(self.items), key=lambda it: (order.key(it[1][0]), it[0]))
-        problems = list(dict.fromkeys(Problem(_path_str(p), m) for _, (p, m) in ranked))
+        problems = list(dict.fromkeys(Problem(_path_str(p), m, item_name(doc, p)) for _, (p, m) in ranked))
         limit = _limits.MAX_PROBLEMS
         if len(problems) > limit:
             extra = len(problems) - limit
             problems = [*problems[:limit], Problem("$", f"... and {extra} more problems not listed")]
         return InputError(problems, name)
+
+
+#: how an element of each array of the documents is named, and the key that holds its name
+_ITEM_KINDS: dict[str, tuple[str, str]] = {
+    "nodes": ("node", "id"),
+    "members": ("member", "id"),
+    "supports": ("support at node", "node"),
+    "load_cases": ("load case", "id"),
+    "combinations": ("combination", "id"),
+    "loads": ("load at node", "node"),
+    "temperature_changes": ("temperature change of member", "member"),
+    "length_errors": ("length error of member", "member"),
+    "support_displacements": ("support displacement at node", "node"),
+}
+
+
+def item_name(doc: Any, path: Sequence[str | int]) -> str:
+    """The items a positional path passes through, named by their ids: ``load case 'snow', load at node 'D'``.
+
+    Empty when the path has no array index, or the element has no usable id (a missing or mistyped id is
+    itself the problem then, and the position is all there is).
+    """
+    names: list[str] = []
+    cur = doc
+    parent: str | int | None = None
+    for p in path:
+        if isinstance(cur, dict) and isinstance(p, str):
+            cur = cur.get(p)
+        elif isinstance(cur, list) and isinstance(p, int) and 0 <= p < len(cur):
+            cur = cur[p]
+            kind = _ITEM_KINDS.get(parent) if isinstance(parent, str) else None
+            if kind is not None and isinstance(cur, dict):
+                ident = cur.get(kind[1])
+                if isinstance(ident, bool):
+                    ident = None
+                if isinstance(ident, int) or (isinstance(ident, str) and ident and len(ident) <= 80):
+                    names.append(f"{kind[0]} {str(ident)!r}")
+        else:
+            break
+        parent = p
+    return ", ".join(names)
 
 
 class _Order:

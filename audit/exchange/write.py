@@ -12,7 +12,7 @@ import math
 from collections.abc import Sequence
 from typing import Any
 
-from ..model import AXES, FloatArray, LoadCase, Model, Results, Units
+from ..model import AXES, BEHAVIOUR_NAMES, FloatArray, LoadCase, Model, Results, Units
 from .numtext import _numbers, _Raw
 from .version import FORMAT_VERSION, MODEL_FORMAT, RESULTS_FORMAT
 
@@ -190,6 +190,7 @@ def dump_model(model: Model) -> str:
             "E": _Raw(model.E_text[j]),
             "A": _Raw(model.A_text[j]),
             "alpha": _Raw(model.alpha_text[j]),
+            **_member_additions(model, j),
         }
         for j in range(model.n_members)
     ]
@@ -235,6 +236,18 @@ def dump_model(model: Model) -> str:
     return _to_text(doc)
 
 
+def _member_additions(model: Model, j: int) -> dict[str, Any]:
+    """The member's ``unit_weight`` and ``behaviour`` (FORMAT.md additions), where it has them."""
+    out: dict[str, Any] = {}
+    if model.unit_weight_text and model.unit_weight_text[j]:
+        out["unit_weight"] = _Raw(model.unit_weight_text[j])
+    elif model.unit_weight.size and not math.isnan(model.unit_weight[j]):
+        out["unit_weight"] = _Raw(repr(float(model.unit_weight[j])))
+    if model.behaviour.size and model.behaviour[j]:
+        out["behaviour"] = BEHAVIOUR_NAMES[int(model.behaviour[j])]
+    return out
+
+
 def _dump_case(model: Model, lc: LoadCase) -> dict[str, Any]:
     ids = model.node_ids
     out: dict[str, Any] = {"id": lc.id}
@@ -258,6 +271,12 @@ def _dump_case(model: Model, lc: LoadCase) -> dict[str, Any]:
                     {"node": node, "direction": [_Raw(x) for x in model.restraint_dir_text[r]], "value": _Raw(t)}
                 )
         out["support_displacements"] = items
+    if lc.has_self_weight:
+        sw: dict[str, Any] = {"factor": _Raw(lc.self_weight_text or repr(float(lc.self_weight)))}
+        if lc.self_weight_direction:
+            texts = lc.self_weight_direction_text or tuple(repr(float(c)) for c in lc.self_weight_direction)
+            sw["direction"] = [_Raw(t) for t in texts]
+        out["self_weight"] = sw
     return out
 
 

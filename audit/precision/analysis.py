@@ -21,6 +21,7 @@ import scipy.sparse as sp
 from audit import certify, linsolve
 from audit.model import Model, Results
 from audit.solve import Solution, System, build_system, factorize_system, solve_with
+from audit.timing import Timings, stage
 
 from .bounds import case_record, input_precision
 from .exact_model import assembly_data, exact_model
@@ -145,19 +146,28 @@ def analyse(
 
 
 def solve_high_precision(
-    model: Model, digits: int = DEFAULT_DIGITS, backend: str = "auto"
+    model: Model, digits: int = DEFAULT_DIGITS, backend: str = "auto", timings: Timings | None = None
 ) -> tuple[tuple[ExactCase, ...], PrecisionReport]:
     """Solve every case and combination to ``digits`` significant digits, with the proof status.
 
     Returns one :class:`ExactCase` per load case then combination (file
     order) and the :class:`PrecisionReport`.  Raises
     ``audit.errors.UnsolvableError`` for a mechanism, like
-    :func:`audit.solve.solve_model`.
+    :func:`audit.solve.solve_model`.  ``timings`` (optional) receives the
+    stages ``build``, ``factorise``, ``recompute``, ``refine`` and ``certificate``.
     """
-    system = build_system(model)
-    factor, cond = factorize_system(model, system, backend)
-    solution = solve_with(model, system, factor, cond)
+    with stage(timings, "build"):
+        system = build_system(model)
+    with stage(timings, "factorise"):
+        factor, cond = factorize_system(model, system, backend)
+    with stage(timings, "recompute"):
+        solution = solve_with(model, system, factor, cond)
+    t0 = time.perf_counter()
     report = analyse(model, system, factor, solution, None, digits=digits)
+    if timings is not None:
+        cert = dict(report.timings).get("certificate", 0.0)
+        timings.add("refine", time.perf_counter() - t0 - cert)
+        timings.add("certificate", cert)
     cases = tuple(
         ExactCase(
             case_id=c.case_id,

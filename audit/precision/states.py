@@ -14,6 +14,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from audit.model import FloatArray, LoadCase, Model
+from audit.selfweight import self_weight_load_texts
 
 from .exact_numbers import ObjArray, decimal_ints, ints_to_float, texts_or_repr
 
@@ -36,17 +37,23 @@ class States:
     abs_load: FloatArray  #: (n_nodes, dim, ns) |f| in float
 
 
-def _with_texts(lc: LoadCase) -> LoadCase:
+def _with_texts(model: Model, lc: LoadCase) -> LoadCase:
     """A load case whose ``*_text`` terms are filled from its float arrays where they were left empty.
 
     A model read from a file always carries the decimal texts; one built in memory (the Python API, the
     benchmark generators) may not, and must then be taken at its float values (as the coordinates, E and A
-    already are), never as unloaded.
+    already are), never as unloaded.  A case's self weight joins its loads as decimal texts
+    (:func:`audit.selfweight.self_weight_load_texts`).
     """
     repl: dict[str, object] = {}
-    if not lc.load_text and np.any(lc.loads):
+    load_text = lc.load_text
+    if not load_text and np.any(lc.loads):
         nz = np.argwhere(lc.loads != 0.0)
-        repl["load_text"] = tuple((int(n), int(a), repr(float(lc.loads[n, a]))) for n, a in nz)
+        load_text = tuple((int(n), int(a), repr(float(lc.loads[n, a]))) for n, a in nz)
+    if lc.has_self_weight:  # the members' weight, from the input's texts (audit.selfweight)
+        load_text = load_text + self_weight_load_texts(model, lc)
+    if load_text is not lc.load_text:
+        repl["load_text"] = load_text
     for arr, attr in ((lc.temperature, "temperature_text"), (lc.length_error, "length_error_text")):
         if not getattr(lc, attr) and np.any(arr):
             repl[attr] = tuple((int(j), repr(float(arr[j]))) for j in np.flatnonzero(arr))
@@ -57,7 +64,7 @@ def _with_texts(lc: LoadCase) -> LoadCase:
 
 def load_states(model: Model) -> States:
     d, nn, m, nr = model.dim, model.n_nodes, model.n_members, model.n_restraints
-    lcs = tuple(_with_texts(lc) for lc in model.load_cases)
+    lcs = tuple(_with_texts(model, lc) for lc in model.load_cases)
 
     def texts(attr: str) -> list[str]:
         return [t for lc in lcs for (*_k, t) in getattr(lc, attr)]
