@@ -44,9 +44,10 @@ def axis_reversal(
 ) -> tuple[Finding, CaseResults, int] | None:
     """(the finding, the results with the axis reversed back, numbers still differing) or None.
 
-    Tried only when the displacements along the axis carry weight (at least two significant values that
-    differ): an axis reversal of the reactions alone is the sign of the reactions (DX110), whose test comes
-    after this one.  Each axis with the reactions reversed too, then without.
+    Tried only when a displacement along the axis carries weight and differs: an axis reversal of the
+    reactions alone is the sign of the reactions (DX110), whose test comes after this one.  Each axis with
+    the reactions reversed too (then one displacement is enough, the reactions of that axis are the rest
+    of the evidence), then the displacements alone (two at least: one is a slip).
     """
     if not cr.has_displacements:
         return None
@@ -56,11 +57,12 @@ def axis_reversal(
     for a in range(d):
         exp = np.nan_to_num(ju.expected[:, a])
         sig = ju.checked[:, a] & (np.abs(exp) > 10 * tol.floor * ju.scale)  # type: ignore[attr-defined]
-        if int(np.sum(sig & ju.failed[:, a])) < 2:
+        n_sig = int(np.sum(sig & ju.failed[:, a]))
+        if n_sig == 0:
             continue
         for with_r in (True, False):
-            if with_r and not cr.has_reactions:
-                continue
+            if (with_r and not cr.has_reactions) or (not with_r and n_sig < 2):
+                continue  # displacements alone need two numbers: one is a slip
             trial = _flip(cr, a, with_r)
             jt = compare_case(model, actions, trial, ref, tol)  # type: ignore[arg-type]
             kinds = ("displacement", "reaction") if with_r else ("displacement",)

@@ -91,8 +91,15 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     obs = cr
     explained: set[str] = set()
 
-    # ---- 1. an axis reversed, the scale of whole kinds (sign conventions, units)
-    flipped = axes.axis_reversal(model, actions, cr, ref, tol, cid)
+    # ---- 1. the case's one load at another value, an axis reversed, the scale of whole kinds (sign
+    # conventions, units)
+    whole = scales.case_scale(ctx, cid, actions, cr, ref)
+    if whole is not None:
+        findings.append(whole[0])
+        obs = whole[1]
+        if whole[2] == 0:
+            return cm.outcome(CHECK_ID, cid, findings, "explained by the case's one load at another value", summary)
+    flipped = axes.axis_reversal(model, actions, obs, ref, tol, cid)
     if flipped is not None:
         findings.append(flipped[0])
         obs = flipped[1]
@@ -162,7 +169,13 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
                 case=cid,
                 location=location,
                 message=message + "; " + agreement,
-                data=(*data, ("cause", message), ("agreement", agreement), ("explains", sum(bad.values()))),
+                data=(
+                    *data,
+                    ("cause", message),
+                    ("agreement", agreement),
+                    ("explains", sum(bad.values())),
+                    ("causes_in_set", 1),
+                ),
             )
         )
         return cm.outcome(CHECK_ID, cid, findings, f"cause found: {best.code} at {location.label()}", summary)

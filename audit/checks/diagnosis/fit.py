@@ -258,12 +258,12 @@ def fit_set(rows: Rows, causes: tuple[Cause, ...]) -> tuple[tuple[FloatArray, ..
 
 def simplicity(causes: tuple[Cause, ...], thetas: tuple[FloatArray, ...], rows: Rows) -> float:
     """The rank sum of a set (smaller is simpler).  A cause of the model whose predicted change shows on one
-    row only is no simpler than a slip of that number, unless its parameter is a plain value (a load missing:
-    factor 0; doubled: factor 2)."""
+    row only is no simpler than a slip of that number, unless it is a load at a plain factor (a load at a
+    support missing, factor 0, or doubled, factor 2, changes that support's reaction only)."""
     total = 0.0
     for c, th in zip(causes, thetas, strict=True):
         rank = float(c.rank)
-        if c.cols is not None and rank == RANK_STRUCTURAL and not c.plain(th):
+        if c.cols is not None and rank == RANK_STRUCTURAL and not (c.plain(th) and c.key[0] == "load"):
             change = np.abs(c.cols @ th) / rows.a
             if int(np.sum(change > 0.5)) <= 1:
                 rank = RANK_SLIP + 0.5

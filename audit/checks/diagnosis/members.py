@@ -161,10 +161,15 @@ def member_candidates(
             data.append(("compatibility_EA", float(compat_ea[m])))
         out.append(
             Candidate(
-                code="DX104",
-                message=f"member {model.member_ids[m]}'s axial stiffness in the source is {cm.fmt(en / ea)}× the "
-                f"model's (the reported results fit EA = {cm.fmt(en)} against {cm.fmt(ea)}"
-                f"{_hint(en / ea) or ': wrong section or material'})",
+                code="DX111" if abs(en / ea) <= LEFT_OUT else "DX104",
+                message=(
+                    f"member {model.member_ids[m]} is left out of the source's model (or inactive in it): the "
+                    f"reported numbers fit the model without it (its reported force {_reported_obs(obs, m)})"
+                    if abs(en / ea) <= LEFT_OUT
+                    else f"member {model.member_ids[m]}'s axial stiffness in the source is {cm.fmt(en / ea)}× the "
+                    f"model's (the reported results fit EA = {cm.fmt(en)} against {cm.fmt(ea)}"
+                    f"{_hint(en / ea) or ': wrong section or material'})"
+                ),
                 location=Location(member=model.member_ids[m]),
                 worst=float(worst[jj]),
                 data=tuple(data),
@@ -352,9 +357,13 @@ def candidates(pb: Problem) -> list[Cause]:
 
 
 def _reported(pb: Problem, m: int) -> str:
-    if not pb.obs.has_axial_forces or not np.isfinite(pb.obs.axial_forces[m]):
+    return _reported_obs(pb.obs, m)
+
+
+def _reported_obs(obs: CaseResults, m: int) -> str:
+    if not obs.has_axial_forces or not np.isfinite(obs.axial_forces[m]):
         return "is missing"
-    return f"is {cm.fmt(float(pb.obs.axial_forces[m]))}"
+    return f"is {cm.fmt(float(obs.axial_forces[m]))}"
 
 
 def _hint(r: float) -> str:

@@ -18,7 +18,7 @@ from audit.checks import _common as cm
 from audit.checks.diagnosis.base import CHECK_ID
 from audit.checks.recompute import compare_case
 from audit.context import Context
-from audit.findings import Finding, Severity
+from audit.findings import Finding, Location, Severity
 from audit.model import FORCE_UNITS, LENGTH_UNITS, CaseResults, FloatArray
 from audit.rules import Rule
 
@@ -262,4 +262,102 @@ def _unit_finding(
             ("kinds", tuple(kinds)),
             ("model_unit", model_unit),
         ),
+    )
+
+
+def case_scale(
+    ctx: Context, cid: str, actions: cm.CaseActions, cr: CaseResults, ref: cm.Reference
+) -> tuple[Finding, CaseResults, int] | None:
+    """A case with one loaded node and nothing else acting, whose every reported number is c × the
+    recomputed one: that load entered at c × its value (DX106 for c = 2, DX112 otherwise), the results
+    divided by c, and the numbers still differing (at most ``OUTLIERS``, left to the other causes); None when
+    that is not what the numbers show.  (A linear structure's whole answer scales with
+    its one load; common practice.)"""
+    model, tol = ctx.model, ctx.tolerances
+    loaded = np.flatnonzero(np.any(actions.loads != 0.0, axis=1))
+    if loaded.size != 1 or np.any(actions.free_elongation != 0.0) or np.any(actions.settlement != 0.0):
+        return None
+    parts = [
+        (cr.displacements, ref.displacements, cr.has_displacements),
+        (cr.axial_forces, ref.axial_forces, cr.has_axial_forces),
+        (cr.reactions, ref.reactions, cr.has_reactions),
+    ]
+    rep = np.concatenate([np.ravel(r) for r, _p, has in parts if has] or [np.zeros(0)])
+    pre = np.concatenate([np.ravel(p) for _r, p, has in parts if has] or [np.zeros(0)])
+    # each kind in its own scale, so that metres do not vanish beside kilonewtons
+    scales = [cm.scale_of(p) or 1.0 for _r, p, has in parts if has]
+    w = np.concatenate(
+        [np.full(np.size(p), 1.0 / s) for (_r, p, has), s in zip([q for q in parts if q[2]], scales, strict=True)]
+        or [np.zeros(0)]
+    )
+    c = fit_ratio(rep * w, pre * w)
+    sig = np.isfinite(rep) & np.isfinite(pre) & (np.abs(pre * w) > 10 * tol.floor)
+    if int(sig.sum()) >= 3:
+        # robust: the median ratio, refitted over the numbers within 1 % of it (a slip must not pull c off)
+        ratio = rep[sig] / pre[sig]
+        med = float(np.median(ratio))
+        near = np.abs(ratio - med) <= 0.01 * abs(med)
+        c = fit_ratio((rep * w)[sig][near], (pre * w)[sig][near]) if near.any() else med
+    if c is None or c == 0.0 or abs(c - 1.0) <= tol.ratio_match:
+        return None
+    trial = _with(
+        cr,
+        displacements=cr.displacements / c,
+        displacement_quantum=cr.displacement_quantum / abs(c),
+        axial_forces=cr.axial_forces / c,
+        axial_force_quantum=cr.axial_force_quantum / abs(c),
+        reactions=cr.reactions / c,
+        reaction_quantum=cr.reaction_quantum / abs(c),
+    )
+    js = compare_case(model, actions, trial, ref, tol)
+    left = sum(int(j.failed.sum()) for j in js.values())
+    checked = sum(int(j.checked.sum()) for j in js.values())
+    if left > min(OUTLIERS, checked // 10):
+        return None  # a few slips beside the scale at most: one in ten numbers
+    worst = [
+        float(
+            np.max(
+                np.where(
+                    j.checked & ~j.failed, np.abs(np.nan_to_num(j.difference)) / np.maximum(j.allowed, 1e-300), 0.0
+                )
+            )
+        )
+        for j in js.values()
+        if j.checked.any()
+    ]
+    node = int(loaded[0])
+    nid = model.node_ids[node]
+    load = "(" + ", ".join(cm.fmt(float(v)) for v in actions.loads[node]) + f") {model.units.force}"
+    code = "DX106" if abs(c - 2.0) <= 2.0 * tol.ratio_match else "DX112"
+    figure = max(worst, default=0.0)
+    cause = (
+        f"the load {load} at node {nid} is applied twice in the source's analysis"
+        if code == "DX106"
+        else f"the load {load} at node {nid} is entered at {cm.fmt(c)}× its value in the source"
+    )
+    agreement = (
+        f"with every reported number divided by {cm.fmt(c)} (the case's one load), every reported number agrees "
+        f"(largest difference {cm.fmt(figure)} of its allowance)"
+        if left == 0
+        else f"divided by {cm.fmt(c)}, all but {left} reported number(s) agree (those are explained below)"
+    )
+    return (
+        Finding(
+            code=code,
+            severity=Severity.WARNING,
+            case=cid,
+            location=Location(node=nid),
+            message=f"{cause}; {agreement}",
+            data=(
+                ("node", nid),
+                ("component", "all"),
+                ("factor_applied", c),
+                ("cause", cause),
+                ("agreement", agreement),
+                ("residual_after", figure),
+                ("differing_after", left),
+            ),
+        ),
+        trial,
+        left,
     )
