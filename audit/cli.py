@@ -2,8 +2,11 @@
 
 Commands
 --------
-``truss-audit check MODEL [RESULTS] ...``   audit reported results (exit 0 pass, 1 fail)
+``truss-audit check SOURCE [RESULTS] ...``  audit reported results (exit 0 pass, 1 fail); a source is a
+                                            model JSON, a workbook, a folder of tables or an IFC file
 ``truss-audit solve MODEL -o RESULTS``      solve every case and write a results file
+``truss-audit import SOURCE -o MODEL.json`` write a source in the neutral format
+``truss-audit template -o BLANK.xlsx``      write the empty tables of the tables contract
 ``truss-audit explain [CODE]``               the finding codes, or what one code establishes and how to act
 
 Exit codes (documented in the README):
@@ -66,8 +69,13 @@ def _parser() -> _Parser:
 
     c = sub.add_parser("check", help="audit the results reported for one or more models")
     c.add_argument(
-        "inputs", nargs="+", metavar="FILE", help="model files (a results file may follow its model), or folders"
+        "inputs",
+        nargs="+",
+        metavar="SOURCE",
+        help="model sources (JSON, workbook, folder of tables, IFC; results may follow their model), or folders",
     )
+    c.add_argument("--map", metavar="MAP.toml", help="mapping file for tables whose names or headers differ")
+    c.add_argument("--ifc-model", metavar="NAME", help="the structural analysis model to read from an IFC file")
     c.add_argument("--results", metavar="PATH", help="results file for a single model (instead of a second positional)")
     c.add_argument("--json", metavar="PATH", help="write the report as JSON")
     c.add_argument("--junit", metavar="PATH", help="write JUnit XML (one test case per check and case)")
@@ -102,16 +110,30 @@ def _parser() -> _Parser:
     s.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
     s.add_argument("--timings", action="store_true", help="print the time of each stage to stderr")
 
+    i = sub.add_parser("import", help="write a source (tables, workbook, IFC) in the neutral JSON format")
+    i.add_argument("source", metavar="SOURCE")
+    i.add_argument("-o", "--output", required=True, metavar="MODEL.json", help="model file to write")
+    i.add_argument("--results-out", metavar="RESULTS.json", help="write the source's results to their own file")
+    i.add_argument("--map", metavar="MAP.toml", help="mapping file for tables whose names or headers differ")
+    i.add_argument("--ifc-model", metavar="NAME", help="the structural analysis model to read from an IFC file")
+
+    t = sub.add_parser("template", help="write the empty tables of the tables contract, to be filled in")
+    t.add_argument("--dimensions", type=int, choices=[2, 3], default=2, help="plane (2) or space (3) truss")
+    t.add_argument("-o", "--output", required=True, metavar="BLANK", help="a .xlsx or .ods workbook, or a folder")
+
     e = sub.add_parser("explain", help="list the finding codes, or explain one code")
     e.add_argument("code", nargs="?", metavar="CODE", help="a finding code (e.g. EQ101) or a code prefix (e.g. ST)")
     return p
 
 
 def _sha256(path: str) -> str:
+    """The digest of a file, or of a folder's files (names and contents, in name order)."""
     h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for chunk in iter(lambda: fh.read(1 << 20), b""):
-            h.update(chunk)
+    files = sorted(q for q in Path(path).iterdir() if q.is_file()) if Path(path).is_dir() else [Path(path)]
+    for f in files:
+        if len(files) > 1 or f != Path(path):
+            h.update(f.name.encode() + b"\0")
+        h.update(f.read_bytes())
     return h.hexdigest()
 
 
@@ -142,16 +164,24 @@ def _expand_inputs(items: Sequence[str]) -> list[tuple[str, str | None]]:
     In a folder, ``NAME.json`` pairs with ``NAME.results.json`` beside it.  On the
     command line a results file pairs with the model file just before it.
     """
+    from audit.sources import holds_only_results, source_kind
+
     paths: list[tuple[str, bool]] = []  # (path, came from a folder)
     for item in items:
         p = Path(item)
-        if p.is_dir():
+        if p.is_dir() and source_kind(p) is None and not holds_only_results(p):
             paths.extend((str(q), True) for q in sorted(p.glob("*.json")))
         else:
             paths.append((item, False))
     pairs: list[tuple[str, str | None]] = []
     folder_models: set[str] = set()
     for path, from_folder in paths:
+        if not from_folder and source_kind(path) != "json":  # tables, a workbook or IFC
+            if pairs and pairs[-1][1] is None and holds_only_results(path):
+                pairs[-1] = (pairs[-1][0], path)
+            else:
+                pairs.append((path, None))
+            continue
         kind = _sniff_format(path)
         if kind == "truss-audit-results":
             if from_folder and path.endswith(".results.json"):
@@ -244,10 +274,11 @@ def _check_outputs(paths: Sequence[str | None]) -> None:
 
 
 def _check_one(args: argparse.Namespace, model_path: str, results_path: str | None, out: TextIO, err: TextIO) -> int:
-    from audit import engine, exchange
+    from audit import engine
     from audit.fileio import refuse_same_path
     from audit.progress import Progress
     from audit.reporters import text
+    from audit.sources import load_source, load_source_results
 
     outputs = [p for p in (args.json, args.junit, args.markdown, args.html) if p]
     inputs = [model_path] + ([results_path] if results_path else [])
@@ -256,8 +287,11 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
     tol = _tolerances(args)
     timings = Timings() if args.timings else None
     with stage(timings, "read"):
-        model = exchange.load_model(model_path)
-        results = exchange.load_results(results_path, model) if results_path else None
+        read = load_source(model_path, map_path=args.map, ifc_model=args.ifc_model)
+        model, results, notes = read.model, read.results, read.notes
+        if results_path:
+            given = load_source_results(results_path, model, map_path=args.map)
+            results, notes = given.results, notes + given.notes
     progress = Progress(err, enabled=not args.quiet)
     try:
         result, ctx = engine.audit_with_context(
@@ -271,6 +305,7 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
             backend=args.solver,
             inputs=tuple((Path(p).name, _sha256(p)) for p in inputs),
             progress=progress.step,
+            source_notes=notes,
             timings=timings,
         )
     finally:
@@ -301,6 +336,8 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise _UsageError("no model files found")
     if len(pairs) == 1:
         return _check_one(args, pairs[0][0], pairs[0][1], out, err)
+    if args.map or args.ifc_model:
+        raise _UsageError("--map and --ifc-model go with exactly one source")
     if args.timings:
         raise _UsageError("--timings takes a single model (the stages of a batch overlap)")
     from audit import batch
@@ -366,6 +403,35 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     return EXIT_PASS
 
 
+def _import(args: argparse.Namespace, out: TextIO) -> int:
+    from audit.fileio import atomic_write_text, refuse_same_path
+    from audit.sources import neutral_documents
+
+    refuse_same_path([p for p in (args.output, args.results_out) if p], [args.source])
+    if args.results_out and Path(args.results_out).resolve() == Path(args.output).resolve():
+        raise _UsageError("the model and its results would be written to the same file")
+    model_text, results_text, read = neutral_documents(
+        args.source, map_path=args.map, ifc_model=args.ifc_model, separate_results=bool(args.results_out)
+    )
+    if args.results_out and results_text is None:
+        raise _UsageError(f"{args.source}: the source carries no results to write to --results-out")
+    atomic_write_text(args.output, model_text)
+    if args.results_out and results_text is not None:
+        atomic_write_text(args.results_out, results_text)
+    out.write(f"wrote {args.output}: {read.model.n_nodes} nodes, {read.model.n_members} members\n")
+    for note in read.notes:
+        out.write(f"  note {note.code}: {note.place + ': ' if note.place else ''}{note.message}\n")
+    return EXIT_PASS
+
+
+def _template(args: argparse.Namespace, out: TextIO) -> int:
+    from audit.tables.write import write_template
+
+    written = write_template(args.output, args.dimensions)
+    out.write(f"wrote {args.output}: {written} empty tables for a {args.dimensions}D truss\n")
+    return EXIT_PASS
+
+
 def _explain(code: str | None, out: TextIO) -> int:
     """The table of codes (all, or those starting with a prefix), or one code explained, from the registry."""
     import textwrap
@@ -408,6 +474,10 @@ def main(argv: Sequence[str] | None = None, out: TextIO | None = None, err: Text
             return _check(args, out, err)
         if args.command == "solve":
             return _solve(args, out, err)
+        if args.command == "import":
+            return _import(args, out)
+        if args.command == "template":
+            return _template(args, out)
         if args.command == "explain":
             return _explain(args.code, out)
         _parser().print_help(out)

@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING
 
 from audit.model import Model, Results
 from audit.solve import Solution, System
+from audit.sources import SourceNote
 
 if TYPE_CHECKING:
     from audit.linsolve import Factor
@@ -28,3 +29,4 @@ class Context:
     unsolvable_reason: str  #: why ``solution`` is None ("" otherwise)
     precision: PrecisionReport | None  #: high-precision recomputation and bounds, None when not run
     precision_fault: str = ""  #: why the high-precision stage crashed ("" when it did not)
+    source_notes: tuple[SourceNote, ...] = ()  #: the source reader's remarks (what it did not read, how it read)

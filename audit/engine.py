@@ -21,6 +21,7 @@ from audit.checks import (
     equilibrium,
     precision_check,
     recompute,
+    source_notes,
     stability_check,
     stiffness_health,
     supports,
@@ -30,11 +31,13 @@ from audit.errors import UnsolvableError
 from audit.findings import AuditResult, CheckOutcome, Finding, Location, Severity, Status
 from audit.model import Model, Results
 from audit.solve import build_system, factorize_system, solve_with
+from audit.sources import SourceNote
 from audit.timing import Timings, stage
 from audit.tolerances import Tolerances
 
 #: the check families, in the order they run and are reported
 CHECK_MODULES: tuple[ModuleType, ...] = (
+    source_notes,
     stability_check,
     stiffness_health,
     equilibrium,
@@ -60,6 +63,7 @@ def build_context(
     digits: int = 30,
     backend: str = "auto",
     progress: Callable[[str], None] | None = None,
+    source_notes: tuple[SourceNote, ...] = (),
     timings: Timings | None = None,
 ) -> Context:
     """Assemble, factorise, analyse stability, solve and refine: the immutable context.
@@ -118,6 +122,7 @@ def build_context(
         unsolvable_reason=reason,
         precision=prec,
         precision_fault=prec_fault,
+        source_notes=tuple(source_notes),
     )
 
 
@@ -218,15 +223,24 @@ def audit_with_context(
     backend: str = "auto",
     inputs: tuple[tuple[str, str], ...] = (),
     progress: Callable[[str], None] | None = None,
+    source_notes: tuple[SourceNote, ...] = (),
     timings: Timings | None = None,
 ) -> tuple[AuditResult, Context]:
     """Audit ``model`` against ``results``; also return the context the checks read.
 
+    ``source_notes`` are the source reader's remarks (:class:`audit.sources.SourceNote`), reported as findings.
     ``timings``, when given, receives the seconds of each stage (:mod:`audit.timing`); nothing of it
     goes into the result.
     """
     ctx = build_context(
-        model, results, tolerances=tolerances, digits=digits, backend=backend, progress=progress, timings=timings
+        model,
+        results,
+        tolerances=tolerances,
+        digits=digits,
+        backend=backend,
+        progress=progress,
+        source_notes=source_notes,
+        timings=timings,
     )
     if progress is not None:
         progress("running the checks")

@@ -374,6 +374,35 @@ GUIDE: dict[str, tuple[str, str, str]] = {
         "node 'B' x, case 'snow': reported 0.0 mm printed to 0.1 mm, recomputed 0.04 mm",
         "Export the results with more significant digits.",
     ),
+    # ----------------------------------------------------------------- source
+    "SR001": (
+        "Records a part of the source that the reader did not read because its contract does not name it "
+        "(a table, a column, a setting, an entity); nothing in it reached the audit.",
+        'members.csv: row 1, column "utilisation": not read: the tables contract names no such column here',
+        "Make sure nothing the audit needs is in that part: rename the table or header to the contract's "
+        "word, or say what it means in a mapping file (--map).",
+    ),
+    "SR002": (
+        "Records how the reader interpreted the source: a column converted to the model's units, a setting "
+        "taken from the file, a model picked among several; the audit ran on the interpreted values.",
+        'sections.csv: column "A [mm2]": converted from mm2 to m^2 (exactly)',
+        "Confirm the interpretation is what the source meant (the unit in the header, the model chosen); "
+        "nothing to do when it is.",
+    ),
+    "SR101": (
+        "The source describes more than a pin-jointed truss (rigid connections, members meant to carry "
+        "bending); the audit treats it as a pin-jointed truss, so bending results are not checked.",
+        "#12 IfcStructuralAnalysisModel 'Frame': rigid connections; audited as a pin-jointed truss",
+        "Use the audit only if the structure is meant to act as a truss; otherwise check it with a frame "
+        "analysis, which this tool does not do.",
+    ),
+    "SR102": (
+        "Values were converted between units with a factor that has no finite decimal form (degF to degC, "
+        "say), so the exact path starts from a 40-digit rounding of the converted value, not from the text.",
+        'temperatures.csv: column "delta [degF]": converted from degF to degC (rounded to 40 significant digits)',
+        "Usually nothing: 40 digits is far below any tolerance. To keep the exact text, give the column in "
+        "the model's unit.",
+    ),
     # --------------------------------------------------------------- supports
     "SP001": (
         "Records the support conditions that could not be checked because reactions or displacements were "

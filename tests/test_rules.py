@@ -2,7 +2,9 @@
 and raised by at least one data case run through the whole engine.
 
 The data cases are the files under ``tests/cases/``, ``tests/data/stability/``, ``tests/data/rules/`` and
-``reference_cases/`` (each file's own source or derivation is named inside it).  The files under
+``reference_cases/`` (each file's own source or derivation is named inside it), and the table sources under
+``tests/data/sources/`` (each with an ``expect.json`` naming its codes, source and derivation), which raise
+the source reader's notes (family SR).  The files under
 ``tests/data/rules/`` (written by its ``generate.py``) are made for one code or scenario each and declare in
 ``x-expect`` the codes the engine must raise; ``tests/data/rules/slow/`` holds the ones too slow for the
 default run (marked ``slow``).
@@ -22,6 +24,7 @@ from audit.cli import main
 from audit.errors import InputError
 from audit.findings import AuditResult, Severity
 from audit.rules import CODE_PATTERN
+from audit.sources import load_source
 
 ROOT = Path(__file__).resolve().parent.parent
 RULES_DIR = ROOT / "tests" / "data" / "rules"
@@ -35,6 +38,8 @@ CASE_FILES = sorted(
         *(ROOT / "reference_cases" / "published").glob("*.json"),
     ]
 )
+SOURCES_DIR = ROOT / "tests" / "data" / "sources"
+SOURCE_CASES = sorted(p for p in SOURCES_DIR.iterdir() if p.is_dir())
 REGISTRY = engine.registry()
 
 #: codes that no model file can raise, with the test that raises them instead
@@ -46,6 +51,8 @@ RAISED_ELSEWHERE = {
     "KH103": "tests/test_stiffness_health.py (EA/L <= 0 cannot pass the reader's validation)",
     "KH111": "tests/test_engine.py::test_an_unmappable_source_matrix_built_in_code_is_kh111 (the reader rejects "
     "every unmappable dof list and storage as an input error)",
+    "SR101": "tests/test_sources.py::test_a_warning_note_is_reported_as_a_warning (raised by the IFC reader "
+    "for a model with rigid connections; a table source cannot describe one)",
     "RC002": "tests/test_engine.py::test_a_crashing_precision_stage_falls_back_to_float64 (the high-precision "
     "stage answers every case the float64 solve answers, unless it crashes)",
 }
@@ -71,8 +78,17 @@ def _audit(path: Path) -> AuditResult | None:
 
 
 @functools.cache
+def _audit_source(path: Path) -> AuditResult:
+    """The engine's result for one table source, with the reader's notes."""
+    read = load_source(path)
+    return engine.audit(read.model, read.results, source_notes=read.notes)
+
+
+@functools.cache
 def _raised() -> frozenset[str]:
     codes: set[str] = set()
+    for folder in SOURCE_CASES:
+        codes.update(f.code for f in _audit_source(folder).findings)
     for path in CASE_FILES:
         result = _audit(path)
         if result is not None:
@@ -125,6 +141,21 @@ def _check_expectation(path: Path, result: AuditResult | None) -> None:
 @pytest.mark.parametrize("path", RULE_CASES, ids=[p.stem for p in RULE_CASES])
 def test_rule_case_raises_what_it_expects(path: Path) -> None:
     _check_expectation(path, _audit(path))
+
+
+@pytest.mark.parametrize("folder", SOURCE_CASES, ids=[p.name for p in SOURCE_CASES])
+def test_source_case_raises_what_it_expects(folder: Path) -> None:
+    expect = json.loads((folder / "expect.json").read_text())
+    assert expect["x-source"].strip()
+    assert expect["x-derivation"].strip()
+    result = _audit_source(folder)
+    wanted = set(expect["codes"])
+    assert wanted <= set(REGISTRY)
+    raised = {f.code for f in result.findings}
+    assert wanted <= raised, f"missing {sorted(wanted - raised)}; raised {sorted(raised)}"
+    loud = {f.code for f in result.findings if f.severity >= Severity.WARNING}
+    assert loud <= wanted, f"unexpected {sorted(loud - wanted)}"
+    assert not result.crashed
 
 
 @pytest.mark.slow

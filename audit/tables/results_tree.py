@@ -1,0 +1,94 @@
+"""The results tables (displacements, forces, reactions) -> the neutral results tree (``FORMAT.md``).
+
+One row per node (or member) and case; the case comes from the ``case`` column, or from the about
+table's ``case`` for a table without one.  An empty component cell is a quantity not reported.  A node
+or member given twice for one case is an error.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from ..exchange.problems import Path_
+from .places import Place
+from .recognise import Table
+from .rows import Reader
+
+#: table -> (the key in a case, the id column, tree key -> column)
+_PARTS: dict[str, tuple[str, str, dict[str, str]]] = {
+    "displacements": ("displacements", "node", {"x": "ux", "y": "uy", "z": "uz"}),
+    "forces": ("axial_forces", "member", {}),
+    "reactions": ("reactions", "node", {"x": "rx", "y": "ry", "z": "rz"}),
+}
+
+
+def results_document(
+    r: Reader, tables: dict[str, Table], settings: dict[str, tuple[str, Place]], prefix: Path_
+) -> dict[str, Any]:
+    """The results tree (without ``format``/``version``) from the results tables in ``tables``."""
+    doc: dict[str, Any] = {}
+    for key in ("source", "sign_convention"):
+        if key in settings:
+            doc[key] = settings[key][0]
+            r.at((*prefix, key), settings[key][1])
+    doc["units"] = {k: u for k, u in zip(("length", "force"), r.units.chosen[:2], strict=True) if u}
+    cases: dict[str, dict[str, Any]] = {}
+    doc["cases"] = cases
+    r.at((*prefix, "cases"), Place(""))
+    default_case = settings.get("case")
+    for name, (part, id_col, comps) in _PARTS.items():
+        t = tables.get(name)
+        if t is None:
+            continue
+        r.at((*prefix, "cases"), Place(t.where))
+        r.require_columns(t, (id_col,))
+        if "case" not in t.columns and default_case is None:
+            r.probs.add(
+                Place(t.where, t.header_row, None, (t.order, t.header_row, 0)),
+                "no 'case' column, and no 'case' in the about table to say which load case these results are",
+            )
+        value_cols = [c for c in comps.values() if c in t.columns] if comps else ["N"]
+        if comps and not value_cols:
+            r.probs.add(
+                Place(t.where, t.header_row, None, (t.order, t.header_row, 0)),
+                f"no component columns: give {', '.join(comps.values())}",
+            )
+        elif not comps and "N" not in t.columns:
+            r.probs.add(Place(t.where, t.header_row, None, (t.order, t.header_row, 0)), "no 'N' column")
+        rows: dict[str, dict[str | int, int]] = {}
+        for row, cells in t.rows:
+            if "case" in t.columns:
+                case = r.value(t, row, cells, "case", (*prefix, "cases", "\x00"))
+            else:
+                case = default_case[0] if default_case else ""
+            body = cases.setdefault(case, {})
+            if case not in rows and (*prefix, "cases", case) not in r.prov.exact:
+                r.at((*prefix, "cases", case), t.place(row, "case") if "case" in t.columns else t.place(row))
+            entries = body.setdefault(part, {})
+            case_rows = rows.setdefault(case, {})
+            item_id = r.value(t, row, cells, id_col, (*prefix, "cases", case, part, "\x00"))
+            if item_id in entries:
+                r.probs.add(
+                    t.place(row, id_col),
+                    f"{id_col} {item_id!r} is given twice for case {case!r} (first in row {case_rows[item_id]})",
+                )
+                continue
+            path = (*prefix, "cases", case, part, item_id)
+            if comps:
+                item = {}
+                for axis, col in comps.items():
+                    v = r.value(t, row, cells, col, (*path, axis))
+                    if v is not None:
+                        item[axis] = v
+                if not item:
+                    continue  # a row with nothing reported
+                entries[item_id] = item
+            else:
+                v = r.value(t, row, cells, "N", path)
+                if v is None:
+                    continue
+                entries[item_id] = v
+            case_rows[item_id] = row
+        for case, case_rows in rows.items():
+            r.rows_of(t, (*prefix, "cases", case, part), case_rows, comps, None if comps else "N")
+    return doc
