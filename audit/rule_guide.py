@@ -187,8 +187,7 @@ GUIDE: dict[str, tuple[str, str, str]] = {
     "DX118": (
         "The displacements (and reactions) along one axis have the opposite sign while member forces agree: "
         "the source measures that axis the other way (e.g. y downwards).",
-        "the reported displacements and reactions along y have the opposite sign: the source measures y the "
-        "other way",
+        "the reported displacements and reactions along y have the opposite sign: the source measures y the other way",
         "Convert the axis when exporting (the format's axes are the model's) and re-run.",
     ),
     # ------------------------------------------------------------ equilibrium
