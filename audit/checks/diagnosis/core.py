@@ -107,8 +107,13 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
             explained.update(("displacement", "reaction"))
     js_obs = compare_case(model, actions, obs, ref, tol)
     bad_obs = {k: int(j.failed.sum()) for k, j in js_obs.items()}
+    before = (obs, list(findings), set(explained))
     obs = scales.scale_tests(ctx, cid, actions, obs, ref, js_obs, bad_obs, findings, explained)
     js_left = compare_case(model, actions, obs, ref, tol)
+    if any(int(j.failed.sum()) for j in js_left.values()) and any(f.code == "DX002" for f in findings):
+        obs, findings, explained = before[0], list(before[1]), set(before[2])
+        obs = scales.scale_tests(ctx, cid, actions, obs, ref, js_obs, bad_obs, findings, explained, plain_only=True)
+        js_left = compare_case(model, actions, obs, ref, tol)
     if not any(int(j.failed.sum()) for j in js_left.values()):
         return cm.outcome(
             CHECK_ID, cid, findings, "explained by an axis or a scale of whole kinds of quantity", summary

@@ -95,8 +95,10 @@ def scale_tests(
     bad: dict[str, int],
     findings: list[Finding],
     explained: set[str],
+    plain_only: bool = False,
 ) -> CaseResults:
-    """Fit reported/recomputed per kind; record the explained kinds; return the observations corrected."""
+    """Fit reported/recomputed per kind; record the explained kinds; return the observations corrected.
+    ``plain_only``: only a sign or a unit ratio counts (no DX002)."""
     model, tol = ctx.model, ctx.tolerances
     res = ctx.results
     declared_f = res.units.force if res is not None else model.units.force
@@ -155,6 +157,12 @@ def scale_tests(
     cN = robust(cN, "axial_force") if cN is not None else None
     cR = robust(cR, "reaction") if cR is not None else None
     cU = robust(cU, "displacement") if cU is not None else None
+    if plain_only:
+        # a factor matching no unit and no sign is evidence only when it explains everything; beside another
+        # cause (a load at another value changes forces and displacements alike) it is left to the fit
+        cN = cN if cN is not None and _is_plain(cN, FORCE_UNITS, tol) else None
+        cR = cR if cR is not None and _is_plain(cR, FORCE_UNITS, tol) else None
+        cU = cU if cU is not None and _is_plain(cU, LENGTH_UNITS, tol) else None
     force_fit = [c for c in (cN, cR) if c is not None]
     scaled: set[str] = set()
     for kind, c in (("axial_force", cN), ("reaction", cR)):
@@ -263,6 +271,10 @@ def _unit_finding(
             ("model_unit", model_unit),
         ),
     )
+
+
+def _is_plain(c: float, table: dict[str, Fraction], tol: Any) -> bool:
+    return abs(abs(c) - 1.0) <= tol.ratio_match or match_unit(c, table, "", tol.ratio_match) is not None
 
 
 def case_scale(
