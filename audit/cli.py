@@ -124,8 +124,9 @@ def _parser() -> _Parser:
     c.add_argument("--timings", action="store_true", help="print the time of each stage to stderr (one model only)")
 
     s = sub.add_parser("solve", help="solve every load case and combination and write a results file")
-    s.add_argument("model", metavar="MODEL")
+    s.add_argument("model", metavar="MODEL", help="a model JSON, workbook, table folder or IFC file")
     s.add_argument("-o", "--output", required=True, metavar="RESULTS", help="results file to write")
+    s.add_argument("--ifc-model", metavar="NAME", help="the structural analysis model to read from an IFC file")
     s.add_argument("--digits", type=int, default=None, help="write N significant digits from the high-precision path")
     s.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
     s.add_argument("--timings", action="store_true", help="print the time of each stage to stderr")
@@ -436,7 +437,9 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     refuse_same_path([args.output], [args.model])
     timings = Timings() if args.timings else None
     with stage(timings, "read"):
-        model = exchange.load_model(args.model)
+        from audit.sources import load_source  # any source; results come out in the source's own units
+
+        model = load_source(args.model, ifc_model=args.ifc_model).model
     if args.digits is not None:
         if args.digits < 1 or args.digits > 200:
             raise _UsageError("--digits must be between 1 and 200")
