@@ -186,3 +186,40 @@ def test_results_tables_given_separately(tmp_path: Path) -> None:
         err=io.StringIO(),
     )
     assert (code, out.getvalue().split(": ")[1]) == (code_ref, ref.getvalue().split(": ")[1])
+
+
+def test_the_demo_handoff_workbook_audits_as_the_demo(tmp_path: Path) -> None:
+    """``reference_cases/demo/footbridge_handoff.xlsx`` (trade headers, E in N/mm2, A in mm2, a notes
+    sheet): the demo's findings, the planted mistake at X2 included, and the unread parts listed."""
+    import importlib.util
+
+    import python_calamine
+
+    book = DEMO / "footbridge_handoff.xlsx"
+    read = load_source(book)
+    _, json_result = _json_audit("demo")
+    result = engine.audit(read.model, read.results, source_notes=read.notes)
+    assert result.verdict == "fail"
+    assert _findings(result) == _findings(json_result)
+    assert {f.case for f in result.findings if f.code == "DX104" and f.location.member == "X2"} == {
+        "dead",
+        "crowd",
+        "sun",
+        "ULS-1",
+    }
+    unread = {n.place for n in read.notes if n.code == "SR001"}
+    assert 'sheet "notes"' in unread
+    assert any("Utilisation" in p for p in unread)
+    # the committed workbook is what the script writes
+    spec = importlib.util.spec_from_file_location("make_handoff", DEMO / "make_handoff.py")
+    assert spec is not None
+    assert spec.loader is not None
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    module.main(tmp_path / "again.xlsx")
+
+    def cells(path: Path) -> dict[str, list[list[object]]]:
+        wb = python_calamine.CalamineWorkbook.from_path(str(path))
+        return {n: wb.get_sheet_by_name(n).to_python() for n in wb.sheet_names}
+
+    assert cells(tmp_path / "again.xlsx") == cells(book)
