@@ -7,8 +7,10 @@ settlements tables in the order they first appear; combinations by their ids.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
+from ..exchange.problems import Path_
 from ..exchange.version import FORMAT_VERSION, MODEL_FORMAT
 from .names import MODEL_TABLES
 from .places import Place
@@ -18,10 +20,15 @@ from .rows import Reader
 _AXES = ("x", "y", "z")
 
 
+def _at(top: str, key: str) -> Callable[[int], Path_]:
+    """The tree path of row ``i``'s ``key`` in the list ``top``."""
+    return lambda i: (top, i, key)
+
+
 def nodes(r: Reader, t: Table, dim: int) -> list[dict[str, Any]]:
     keys = ("id", *_AXES[:dim])
     r.require_columns(t, keys)
-    cols = [r.column(t, k, lambda i, k=k: ("nodes", i, k)) for k in keys]
+    cols = [r.column(t, k, _at("nodes", k)) for k in keys]
     out = [dict(zip(keys, values, strict=True)) for values in zip(*cols, strict=True)]
     r.rows_of(t, ("nodes",), {i: row for i, (row, _c) in enumerate(t.rows)}, {k: k for k in keys})
     return out
@@ -52,7 +59,7 @@ def members(r: Reader, t: Table) -> list[dict[str, Any]]:
     keys = ("id", "start", "end", "E", "A", "material", "section", "alpha", "unit_weight", "behaviour")
     r.require_columns(t, ("id", "start", "end"))
     present = [k for k in keys if k in t.columns or k in ("id", "start", "end")]
-    cols = [r.column(t, k, lambda i, k=k: ("members", i, k)) for k in present]
+    cols = [r.column(t, k, _at("members", k)) for k in present]
     out = []
     for values in zip(*cols, strict=True):
         out.append({k: v for k, v in zip(present, values, strict=True) if v is not None})
@@ -132,7 +139,7 @@ def _case_rows(r: Reader, t: Table, cases: _Cases, key: str, cols: dict[str, str
     """Rows of a per-case table appended to ``key`` of their load case; ``cols``: tree key -> column."""
     r.require_columns(t, ("case", *required))
     # the place of a cell is recorded per case below; a problem found here names the row directly
-    columns = {tree_key: r.column(t, col, lambda i, c=col: (key, "\x00", i, c)) for tree_key, col in cols.items()}
+    columns = {tree_key: r.column(t, col, _at(key, "\x00")) for tree_key, col in cols.items()}
     rows_by_case: dict[int, dict[str | int, int]] = {}
     for n, (row, cells) in enumerate(t.rows):
         k, lc = cases.case(t, row, cells)

@@ -64,7 +64,7 @@ def results_document(
         nowhere = _constant((*prefix, "cases", "\x00"))  # a cell's problem is reported at its place
         case_col = r.column(t, "case", nowhere) if "case" in t.columns else None
         id_values = r.column(t, id_col, nowhere)
-        value_cols = {axis: r.column(t, col, nowhere) for axis, col in comps.items()}
+        comp_values = {axis: r.column(t, col, nowhere) for axis, col in comps.items()}
         n_values = r.column(t, "N", nowhere) if not comps else None
         fixed_case = default_case[0] if default_case else ""
         for n, (row, _cells) in enumerate(t.rows):
@@ -84,7 +84,7 @@ def results_document(
                 )
                 continue
             if n_values is None:
-                item = {axis: values[n] for axis, values in value_cols.items() if values[n] is not None}
+                item = {axis: values[n] for axis, values in comp_values.items() if values[n] is not None}
                 if not item:
                     continue  # a row with nothing reported
                 entries[item_id] = item
