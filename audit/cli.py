@@ -16,7 +16,8 @@ Exit codes (documented in the README):
 1     the audit failed: a finding at or above ``--fail-on``
 2     bad input or usage; nothing was written
 3     a check crashed (reported under its own name); audit failed
-4     ``solve`` only: the model cannot be solved (mechanism or singular)
+4     ``solve`` only: the model cannot be solved (mechanism or singular), or a case of a model with
+      tension-only or compression-only members has no solution (the other cases are written)
 ====  ==========================================================
 """
 
@@ -104,8 +105,9 @@ def _parser() -> _Parser:
     c.add_argument("--timings", action="store_true", help="print the time of each stage to stderr (one model only)")
 
     s = sub.add_parser("solve", help="solve every load case and combination and write a results file")
-    s.add_argument("model", metavar="MODEL")
+    s.add_argument("model", metavar="MODEL", help="a model JSON, workbook, table folder or IFC file")
     s.add_argument("-o", "--output", required=True, metavar="RESULTS", help="results file to write")
+    s.add_argument("--ifc-model", metavar="NAME", help="the structural analysis model to read from an IFC file")
     s.add_argument("--digits", type=int, default=None, help="write N significant digits from the high-precision path")
     s.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
     s.add_argument("--timings", action="store_true", help="print the time of each stage to stderr")
@@ -384,13 +386,16 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     refuse_same_path([args.output], [args.model])
     timings = Timings() if args.timings else None
     with stage(timings, "read"):
-        model = exchange.load_model(args.model)
+        from audit.sources import load_source  # any source; results come out in the source's own units
+
+        model = load_source(args.model, ifc_model=args.ifc_model).model
     if args.digits is not None:
         if args.digits < 1 or args.digits > 200:
             raise _UsageError("--digits must be between 1 and 200")
         from audit import precision
 
-        cases, _report = precision.solve_high_precision(model, args.digits, args.solver, timings=timings)
+        cases, report = precision.solve_high_precision(model, args.digits, args.solver, timings=timings)
+        unsolved = report.unsolved
         with stage(timings, "report"):
             text = exchange.dump_results(
                 model, cases, source=f"truss-audit {__version__} solve --digits {args.digits}", digits=args.digits
@@ -399,6 +404,7 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         from audit.solve import solve_model
 
         solution = solve_model(model, args.solver, timings=timings)
+        unsolved = tuple((s.case_id, s.message) for s in solution.nonlinear.unsolved) if solution.nonlinear else ()
         with stage(timings, "report"):
             text = exchange.dump_results(
                 model, solution.cases, source=f"truss-audit {__version__} solve ({solution.backend})"
@@ -408,6 +414,10 @@ def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if timings is not None:
         err.write(timings.render())
     out.write(f"wrote {args.output}: {len(model.load_cases)} load cases, {len(model.combinations)} combinations\n")
+    if unsolved:  # a non-linear model: the other cases were solved and written
+        for case_id, why in unsolved:
+            err.write(f"truss-audit: case {case_id!r} has no solution and is not in {args.output}: {why}\n")
+        return EXIT_UNSOLVABLE
     return EXIT_PASS
 
 

@@ -19,6 +19,7 @@ from audit.checks import (
     compatibility,
     diagnosis,
     equilibrium,
+    nonlinear_states,
     precision_check,
     recompute,
     source_notes,
@@ -30,6 +31,7 @@ from audit.context import Context
 from audit.errors import UnsolvableError
 from audit.findings import AuditResult, CheckOutcome, Finding, Location, Severity, Status
 from audit.model import Model, Results
+from audit.nonlinear.exact import nonlinear_precision
 from audit.solve import build_system, factorize_system, solve_with
 from audit.sources import SourceNote
 from audit.timing import Timings, stage
@@ -39,6 +41,7 @@ from audit.tolerances import Tolerances
 CHECK_MODULES: tuple[ModuleType, ...] = (
     source_notes,
     stability_check,
+    nonlinear_states,
     stiffness_health,
     equilibrium,
     supports,
@@ -100,7 +103,14 @@ def build_context(
         reason = "the model is unstable: " + stab.summary()
     prec = None
     prec_fault = ""
-    if solution is not None and factor is not None:
+    if solution is not None and factor is not None and solution.nonlinear is not None:
+        say("refining the active structures in high precision")
+        try:
+            prec = nonlinear_precision(model, solution, results, digits)
+        except Exception as exc:  # reported as a crash of the precision stage, never as a pass
+            last = traceback.extract_tb(exc.__traceback__)[-1]
+            prec_fault = f"{type(exc).__name__}: {exc} at {last.filename.rsplit('/', 1)[-1]}:{last.lineno}"
+    elif solution is not None and factor is not None:
         say("refining in high precision and proving error bounds")
         t0 = timings.clock() if timings is not None else 0.0
         try:

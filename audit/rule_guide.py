@@ -55,7 +55,32 @@ GUIDE: dict[str, tuple[str, str, str]] = {
         "Correct the factors in the source's combination definition (or in the model if the declared ones "
         "are wrong) and re-export.",
     ),
+    "CB103": (
+        "The model has tension-only or compression-only members, so superposition does not hold; the reported "
+        "combination is the factored sum of its reported cases, and the combination solved as its own case "
+        "(its factored actions together) differs from that sum beyond the tolerance.",
+        "combination 'ULS' is the factored sum of its reported cases, but superposition does not hold for this "
+        "model: solved as its own case, member D2 is 0 kN, not 7.07 (off by 7.07, 41 % of the largest force)",
+        "Have the source solve each combination as a load case of its own (its factored loads applied "
+        "together) instead of adding up case results.",
+    ),
     # ---------------------------------------------------------- compatibility
+    "CP102": (
+        "A tension-only (compression-only) member whose reported end displacements shorten (lengthen) it is "
+        "slack and carries nothing, yet a force is reported for it: the reported forces and displacements do "
+        "not describe one state of the non-linear model.",
+        "member D2 is slack by the reported displacements (its length change -0.00042 m is on its slack side) "
+        "but is reported with a force of 3 kN",
+        "Check that the source models the member as tension-only (or compression-only) and that forces and "
+        "displacements come from the same converged non-linear run.",
+    ),
+    "CP103": (
+        "A tension-only member is reported in compression (or a compression-only member in tension) beyond the "
+        "tolerance: a sense the member cannot carry, so the source did not treat it as declared.",
+        "member D2 is tension-only but is reported in compression (-8.49 kN)",
+        "The source most likely analysed the member as linear: re-run it with the member tension-only (or "
+        "compression-only), or correct the model's behaviour if the member really is linear.",
+    ),
     "CP001": (
         "Records that some members were not checked for compatibility because their force or an end "
         "displacement was not reported; nothing is claimed about those members.",
@@ -163,6 +188,30 @@ GUIDE: dict[str, tuple[str, str, str]] = {
         "reactions balance the loads' sum but not their moment (a load or reaction at the wrong place).",
         "case 'wind': moment of loads and reactions about the centroid 18.0 kN·m",
         "Check the position of the loads and which supports carry reactions; the diagnosis may name a moved load.",
+    ),
+    # -------------------------------------------------------------- nonlinear
+    "NL001": (
+        "Records the state the auditor found for a case of a model with tension-only or compression-only "
+        "members: which members are slack, and that the active structure is stable, with its degree of "
+        "indeterminacy.",
+        "'wind': 1 slack member(s): D2; the active structure (5 members) is stable and statically determinate "
+        "(solved by active set in 2 iteration(s))",
+        "Compare the slack members with the source's; a member slack here but loaded there (or the reverse) "
+        "points to a behaviour the source did not model.",
+    ),
+    "NL101": (
+        "The case has no solution: without the members that go slack the active structure is a mechanism, and "
+        "the loads do work along it, so it could stand only if the named member took the sense it cannot "
+        "carry (FORMAT.md). Proven from the mechanism's direction, not from a failed iteration.",
+        "'uplift' has no solution: the structure is stable only if prop takes tension, which it cannot",
+        "Add bracing that works in the needed sense, make the member linear if it really can take both senses, "
+        "or treat the load case as one the structure cannot carry.",
+    ),
+    "NL102": (
+        "The non-linear solve of the case reached its iteration cap without meeting the sign conditions, so "
+        "nothing about the case is established; the audit fails rather than pass it.",
+        "the non-linear solve did not converge in 260 iterations (sign violation 0.03 of the force scale left)",
+        "Report the model to the tool's maintainers; meanwhile check the case by other means.",
     ),
     # -------------------------------------------------------------- precision
     "HP101": (

@@ -17,12 +17,14 @@ springs together) and f0 the loads equivalent to free elongations
 
 so r = K u − f − f0 with K the members' stiffness only (the springs' forces
 are part of r).  Combinations are factored sums of the case solutions: the
-model is linear.
+model is linear.  A model with tension-only or compression-only members is
+solved state by state in :mod:`audit.nonlinear`.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.sparse as sp
@@ -32,6 +34,9 @@ from audit.errors import UnsolvableError
 from audit.model import AXES, FloatArray, IntArray, Model
 from audit.selfweight import self_weight_loads
 from audit.timing import Timings, stage
+
+if TYPE_CHECKING:
+    from audit.nonlinear import NonlinearReport
 
 #: a scaled restrained K whose estimated 1-norm condition exceeds this is refused as singular
 SINGULAR_CONDITION = 1.0e14
@@ -64,6 +69,9 @@ class Solution:
     cases: tuple[CaseSolution, ...]  #: load cases then combinations, in file order
     backend: str
     condition_estimate: float  #: 1-norm condition estimate of the diagonally scaled K_r (nan if not estimated)
+    #: tension-only / compression-only members: every state's outcome (cases without a solution are left out
+    #: of ``cases``); None for a linear model
+    nonlinear: NonlinearReport | None = None
 
     def case(self, case_id: str) -> CaseSolution | None:
         for c in self.cases:
@@ -297,8 +305,11 @@ def solve_model(model: Model, backend: str = "auto", timings: Timings | None = N
 
 def solve_with(model: Model, system: System, factor: linsolve.Factor, cond: float = float("nan")) -> Solution:
     """Solve all cases with an existing factor."""
-    if model.is_nonlinear:
-        raise UnsolvableError("tension-only or compression-only members need the non-linear solver (not yet built)")
+    if model.is_nonlinear:  # tension-only / compression-only members: each state on its own (audit.nonlinear)
+        from audit.nonlinear import solve_nonlinear
+
+        result: Solution = solve_nonlinear(model, system, factor, cond)
+        return result
     nc = len(model.load_cases)
     nd = model.n_dofs
     if nc == 0:

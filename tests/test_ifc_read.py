@@ -226,3 +226,178 @@ def test_unit_weight_self_weight_and_behaviour(system: str, tmp_path: Path) -> N
     assert dead.self_weight == pytest.approx(1.35, rel=RTOL)
     np.testing.assert_allclose(dead.self_weight_direction, [0.0, -1.0], atol=1e-15)
     assert got.behaviour.tolist() == want.behaviour.tolist()
+
+
+def _ifc2x3_two_bars(path: Path) -> None:
+    """Two bars in IFC2X3's own forms: IfcMechanicalMaterialProperties, IfcGeneralProfileProperties through
+    IfcRelAssociatesProfileProperties, LinearStiffness springs (IFC2X3 has no "fixed" flag), a point load."""
+    f = ifcopenshell.file(schema="IFC2X3")
+    c = f.create_entity
+    org = c("IfcOrganization", Name="test")
+    app = c("IfcApplication", org, "1", "tests", "tests")
+    user = c("IfcPersonAndOrganization", c("IfcPerson", FamilyName="tester"), org)
+    history = c("IfcOwnerHistory", user, app, ChangeAction="ADDED", CreationDate=0)
+
+    def g() -> str:  # a GlobalId, and (positionally next) the owner history IFC2X3 requires
+        return ifcopenshell.guid.new()
+
+    def root(kind: str, **kw: Any) -> Any:
+        return c(kind, g(), history, **kw)
+
+    origin = c("IfcCartesianPoint", (0.0, 0.0, 0.0))
+    ctx = c("IfcGeometricRepresentationContext", ContextType="Model", CoordinateSpaceDimension=3,
+            WorldCoordinateSystem=c("IfcAxis2Placement3D", origin))  # fmt: skip
+    mm = c("IfcSIUnit", UnitType="LENGTHUNIT", Prefix="MILLI", Name="METRE")
+    kn = c("IfcSIUnit", UnitType="FORCEUNIT", Prefix="KILO", Name="NEWTON")
+    mpa = c("IfcSIUnit", UnitType="PRESSUREUNIT", Prefix="MEGA", Name="PASCAL")
+    modulus = c("IfcDerivedUnit", Elements=[c("IfcDerivedUnitElement", mpa, 1)], UnitType="MODULUSOFELASTICITYUNIT")
+    units = c("IfcUnitAssignment", [mm, kn, modulus])
+    root("IfcProject", Name="p", RepresentationContexts=[ctx], UnitsInContext=units)
+    model = root("IfcStructuralAnalysisModel", Name="two bars", PredefinedType="LOADING_3D")
+    conns = []
+    for name, xyz, k in (
+        ("A", (0.0, 0.0, 0.0), 500.0),
+        ("B", (3000.0, 0.0, 0.0), None),
+        ("C", (6000.0, 0.0, 0.0), 500.0),
+    ):
+        vp = c("IfcVertexPoint", c("IfcCartesianPoint", xyz))
+        rep = c("IfcTopologyRepresentation", ctx, "Reference", "Vertex", [vp])
+        cond = c("IfcBoundaryNodeCondition", f"spring {name}", k, k, k) if k else None
+        conns.append(root("IfcStructuralPointConnection", Name=name, AppliedCondition=cond,
+                       Representation=c("IfcProductDefinitionShape", Representations=[rep])))  # fmt: skip
+    members = []
+    for name, a, b in (("AB", 0, 1), ("BC", 1, 2)):
+        m = root("IfcStructuralCurveMember", Name=name, PredefinedType="PIN_JOINED_MEMBER")
+        root("IfcRelConnectsStructuralMember", RelatingStructuralMember=m, RelatedStructuralConnection=conns[a])
+        root("IfcRelConnectsStructuralMember", RelatingStructuralMember=m, RelatedStructuralConnection=conns[b])
+        members.append(m)
+    steel = c("IfcMaterial", "steel")
+    c("IfcMechanicalMaterialProperties", Material=steel, YoungModulus=200000.0)
+    root("IfcRelAssociatesMaterial", RelatedObjects=members, RelatingMaterial=steel)
+    props = c("IfcGeneralProfileProperties", ProfileName="rod", CrossSectionArea=1200.0)
+    root("IfcRelAssociatesProfileProperties", RelatedObjects=members, RelatingProfileProperties=props)
+    root("IfcRelAssignsToGroup", RelatedObjects=[*conns, *members], RelatingGroup=model)
+    case = root("IfcStructuralLoadGroup", Name="pull", PredefinedType="LOAD_CASE", ActionType="VARIABLE_Q",
+             ActionSource="WIND_W")  # fmt: skip
+    load = c("IfcStructuralLoadSingleForce", ForceX=12.5, ForceY=-4.0, ForceZ=1.0)
+    act = root(
+        "IfcStructuralPointAction", Name="P", AppliedLoad=load, GlobalOrLocal="GLOBAL_COORDS", DestabilizingLoad=False
+    )
+    root("IfcRelConnectsStructuralActivity", RelatingElement=conns[1], RelatedStructuralActivity=act)
+    root("IfcRelAssignsToGroup", RelatedObjects=[act], RelatingGroup=case)
+    model.LoadedBy = [case]
+    validate(f)
+    f.write(str(path))
+
+
+def test_ifc2x3_forms(tmp_path: Path) -> None:
+    path = tmp_path / "two-bars-2x3.ifc"
+    _ifc2x3_two_bars(path)
+    m = read_ifc(path).model
+    assert (m.dim, m.units.length, m.units.force) == (3, "mm", "kN")
+    assert m.E_text == ("200", "200")  # 200000 MPa = 200 kN/mm^2, exactly
+    assert m.A_text == ("1200.0", "1200.0")
+    assert m.n_restraints == 0  # IFC2X3 stiffnesses are springs
+    assert sorted(m.spring_k_text) == ["500.0"] * 6
+    assert m.load_cases[0].load_text == ((1, 0, "12.5"), (1, 1, "-4.0"), (1, 2, "1.0"))
+
+
+@pytest.mark.parametrize(
+    ("value", "scale", "text"),
+    [
+        (210000.0, Fraction(1, 1000), "210"),  # MPa -> kN/mm^2: exact
+        (0.1, Fraction(144), "14.4"),  # ksi -> kip/ft^2: exact from the float's shortest text, not its binary value
+        (4480.0, Fraction(1), "4480.0"),  # the file's own unit: the stored float's shortest text
+        (1.0, Fraction(1, 3), "0.3333333333333333333333333333333333333333"),  # no exact decimal: 40 digits
+    ],
+)
+def test_number_text(value: float, scale: Fraction, text: str) -> None:
+    from audit.ifc.units import number_text
+
+    assert number_text(value, scale).decode() == text
+
+
+def test_inexact_conversion_is_noted(tmp_path: Path) -> None:
+    """E in MPa in a ft/kip file: kip/ft^2 per MPa has no exact decimal form (1 lbf is 4.4482216152605 N)."""
+    doc = json.loads((ROOT / "reference_cases/published/tripod_space.json").read_text(encoding="utf-8"))
+    f = write_ifc(doc, "ft_kip")
+    (assignment,) = f.by_type("IfcUnitAssignment")
+    mpa = f.create_entity("IfcSIUnit", UnitType="PRESSUREUNIT", Prefix="MEGA", Name="PASCAL")
+    modulus = f.create_entity(
+        "IfcDerivedUnit",
+        Elements=[f.create_entity("IfcDerivedUnitElement", Unit=mpa, Exponent=1)],
+        UnitType="MODULUSOFELASTICITYUNIT",
+    )
+    assignment.Units = [u for u in assignment.Units if getattr(u, "UnitType", None) != "MODULUSOFELASTICITYUNIT"] + [
+        modulus
+    ]
+    path = tmp_path / "mixed.ifc"
+    f.write(str(path))
+    read = read_ifc(path)
+    assert any(n.code == "SR102" and n.message.startswith("E converted") for n in read.notes)
+    assert all(len(t.replace(".", "").lstrip("0")) <= 41 for t in read.model.E_text)
+
+
+def _to_xz_plane(f: Any) -> None:
+    """Turn a model drawn in the X-Y plane into the X-Z plane: Y becomes Z (and Z becomes -Y, a rotation)."""
+    for p in f.by_type("IfcCartesianPoint"):
+        x, y, z = (*p.Coordinates, 0.0, 0.0)[:3]
+        p.Coordinates = (x, -z, y)
+    for d in f.by_type("IfcDirection"):
+        x, y, z = (*d.DirectionRatios, 0.0, 0.0)[:3]
+        d.DirectionRatios = (x, -z, y)
+    for kind, prefix in (
+        ("IfcStructuralLoadSingleForce", "Force"),
+        ("IfcStructuralLoadSingleDisplacement", "Displacement"),
+    ):
+        for load in f.by_type(kind):
+            y, z = getattr(load, f"{prefix}Y"), getattr(load, f"{prefix}Z")
+            setattr(load, f"{prefix}Y", None if z is None else -z)
+            setattr(load, f"{prefix}Z", y)
+    for cond in f.by_type("IfcBoundaryNodeCondition"):
+        y, z = cond.TranslationalStiffnessY, cond.TranslationalStiffnessZ
+        cond.TranslationalStiffnessY, cond.TranslationalStiffnessZ = z, y
+
+
+@pytest.mark.parametrize("case", ["hibbeler_statics_ex6_1", "logan_inclined_roller", "spring_series"])
+def test_plane_detected_in_the_xz_plane(case: str, tmp_path: Path) -> None:
+    """A plane truss drawn in the X-Z plane (a LOADING_3D model) is read as 2D with x = X, y = Z."""
+    doc = json.loads((ROOT / f"reference_cases/published/{case}.json").read_text(encoding="utf-8"))
+    f = write_ifc(doc, "si", plane_type=False)
+    _to_xz_plane(f)
+    validate(f)
+    path = tmp_path / "xz.ifc"
+    f.write(str(path))
+    read = read_ifc(path)
+    assert read.model.dim == 2
+    assert any("X-Z plane" in n.message and "y = Z" in n.message for n in read.notes)
+    assert_same_model(read.model, exchange.parse_model(json.dumps(doc)))
+
+
+def test_load_across_the_plane_makes_a_space_truss(tmp_path: Path) -> None:
+    """Joints in one plane, but a load across it at a joint free across it: read as 3D, and said so."""
+    doc = json.loads((ROOT / "reference_cases/published/hibbeler_statics_ex6_1.json").read_text(encoding="utf-8"))
+    f = write_ifc(doc, "si", plane_type=False)
+    f.by_type("IfcStructuralLoadSingleForce")[0].ForceZ = 5.0
+    path = tmp_path / "across.ifc"
+    f.write(str(path))
+    read = read_ifc(path)
+    assert read.model.dim == 3
+    assert any(n.code == "SR002" and "space truss" in n.message and "across it" in n.message for n in read.notes)
+
+
+def test_rigid_members_warned_and_unread_entities_listed(tmp_path: Path) -> None:
+    doc = json.loads((ROOT / "reference_cases/demo/footbridge.json").read_text(encoding="utf-8"))
+    f = write_ifc(doc, "si")
+    for m in f.by_type("IfcStructuralCurveMember")[:2]:
+        m.PredefinedType = "RIGID_JOINED_MEMBER"
+    f.create_entity("IfcStructuralSurfaceMember", GlobalId=ifcopenshell.guid.new(), Name="deck", PredefinedType="SHELL")
+    path = tmp_path / "rigid.ifc"
+    f.write(str(path))
+    read = read_ifc(path)
+    assert read.model.n_members == len(doc["members"])
+    rigid = [n for n in read.notes if n.code == "SR101"]
+    assert len(rigid) == 1
+    assert rigid[0].message.startswith("2 member(s) are meant to carry bending")
+    assert "pin-jointed truss" in rigid[0].message
+    assert any(n.code == "SR001" and "IfcStructuralSurfaceMember not read" in n.message for n in read.notes)

@@ -216,6 +216,15 @@ def reference(ctx: Context, case_id: str) -> Reference | None:
     return Reference(cs.displacements, cs.axial_forces, cs.reactions, "float64")
 
 
+def unsolved_reason(ctx: Context, case_id: str) -> str:
+    """Why a case has no recomputation ("" when it has one or nothing is known)."""
+    nl = ctx.solution.nonlinear if ctx.solution is not None else None
+    state = nl.state(case_id) if nl is not None else None
+    if state is not None and state.message:
+        return state.message
+    return ctx.unsolvable_reason
+
+
 # ------------------------------------------------------------------ scales
 def scale_of(*arrays: FloatArray) -> float:
     """Largest finite |value| over the arrays (0 when there is none)."""

@@ -8,7 +8,8 @@ by the recompute check (under the combination's id); this check adds whether the
 wrong combination can be told from wrong cases (CB002: the combination is consistent with its cases,
 the cases are what differ).  When the combination disagrees with its cases, the factors that best
 reproduce it are fitted by least squares over every reported quantity; factors that explain it are
-reported (CB102).
+reported (CB102).  A model with tension-only or compression-only members is checked by
+:mod:`audit.checks._superposition` instead (CB103: a superposed combination).
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from typing import Any
 import numpy as np
 
 from audit.checks import _common as cm
+from audit.checks._superposition import check_nonlinear
 from audit.checks.recompute import compare_case, quantity_name
 from audit.context import Context
 from audit.findings import CheckOutcome, Finding, Severity
@@ -39,6 +41,13 @@ RULES = (
         Severity.INFO,
         "the combination is the factored sum of its reported cases; its differences from the recomputation "
         "come from the cases",
+        CHECK_ID,
+    ),
+    Rule(
+        "CB103",
+        Severity.ERROR,
+        "a combination of a non-linear model was superposed: it is the factored sum of its cases, and the "
+        "combination solved as its own case differs",
         CHECK_ID,
     ),
     Rule(
@@ -67,6 +76,8 @@ def run(ctx: Context) -> list[CheckOutcome]:
             outs.append(cm.not_run(CHECK_ID, comb.id, cm.NO_RESULTS))
         elif cr is None:
             outs.append(cm.not_run(CHECK_ID, comb.id, f"combination '{comb.id}' was not reported"))
+        elif model.is_nonlinear:  # superposition does not hold (audit.checks._superposition)
+            outs.append(check_nonlinear(ctx, comb.id, cr))
         else:
             outs.append(_check(ctx, comb.id, cr))
     return outs

@@ -84,7 +84,7 @@ def _check_case(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     model, tol = ctx.model, ctx.tolerances
     ref = cm.reference(ctx, cid)
     if ref is None:
-        reason = ctx.unsolvable_reason or f"'{cid}' was not recomputed"
+        reason = cm.unsolved_reason(ctx, cid) or f"'{cid}' was not recomputed"
         return cm.not_run(CHECK_ID, cid, f"no recomputation: {reason}")
     actions = cm.case_actions(model, cid)
     assert actions is not None

@@ -15,6 +15,7 @@ from typing import Any
 import ifcopenshell.util.placement as placement_util
 import numpy as np
 
+from .links import attr_index
 from .places import Issues
 from .units import number_text
 
@@ -60,24 +61,41 @@ def origin_of(a2p: Any) -> np.ndarray:
     return m[:3, 3].copy()
 
 
-def _vertex_point(entity: Any) -> Any:
-    rep = entity.Representation
-    for r in (rep.Representations or ()) if rep is not None else ():
-        for item in r.Items or ():
-            if item.is_a("IfcVertexPoint") and item.VertexGeometry is not None:
-                return item.VertexGeometry
+class Positions:
+    """Attribute positions used for every joint (read by index: named access costs a lookup per call)."""
+
+    def __init__(self, file: Any) -> None:
+        self.name = attr_index(file, "IfcStructuralPointConnection", "Name")
+        self.placement = attr_index(file, "IfcStructuralPointConnection", "ObjectPlacement")
+        self.representation = attr_index(file, "IfcStructuralPointConnection", "Representation")
+        self.representations = attr_index(file, "IfcProductDefinitionShape", "Representations")
+        self.items = attr_index(file, "IfcTopologyRepresentation", "Items")
+        self.geometry = attr_index(file, "IfcVertexPoint", "VertexGeometry")
+
+
+def _vertex_point(entity: Any, pos: Positions) -> Any:
+    rep = entity.get_argument(pos.representation)
+    if rep is None or not rep.is_a("IfcProductDefinitionShape"):
+        return None
+    for r in rep.get_argument(pos.representations) or ():
+        for item in r.get_argument(pos.items) or ():
+            if item.is_a() == "IfcVertexPoint":
+                return item.get_argument(pos.geometry)
     return None
 
 
-def read_joint(conn: Any, name: str, scale: Fraction, placements: Placements, issues: Issues) -> Joint | None:
-    point = _vertex_point(conn)
-    if point is None or not point.is_a("IfcCartesianPoint"):
+def read_joint(
+    conn: Any, name: str, scale: Fraction, placements: Placements, issues: Issues, pos: Positions
+) -> Joint | None:
+    point = _vertex_point(conn, pos)
+    if point is None or point.is_a() != "IfcCartesianPoint":
         issues.problem(
             conn, "has no vertex geometry (an IfcVertexPoint with an IfcCartesianPoint in its Representation)"
         )
         return None
-    raw = tuple(float(c) for c in point.Coordinates) + (0.0,) * (3 - len(point.Coordinates))
-    m = placements.matrix(conn.ObjectPlacement)
+    coords = point.get_argument(0)
+    raw = tuple(float(c) for c in coords) + (0.0,) * (3 - len(coords))
+    m = placements.matrix(conn.get_argument(pos.placement))
     if not np.all(np.isfinite(m)):
         issues.problem(conn, "its ObjectPlacement cannot be evaluated")
         return None

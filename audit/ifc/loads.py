@@ -19,6 +19,7 @@ from typing import Any
 
 import numpy as np
 
+from .links import Links
 from .places import Issues
 from .units import FORCE, LENGTH, TEMPERATURE, Units, number_text
 
@@ -62,23 +63,17 @@ def _type(group: Any) -> str:
     return t
 
 
-def _members(group: Any) -> list[tuple[Any, Any]]:
+def _members(group: Any, links: Links) -> list[tuple[Any, Any]]:
     """(object, relationship) assigned to a group."""
-    out = []
-    for rel in group.IsGroupedBy or ():
-        for obj in rel.RelatedObjects or ():
-            out.append((obj, rel))
-    return out
+    return links.group_objects.get(group.id(), [])
 
 
 def _factor(rel: Any) -> float:
     return float(rel.Factor) if rel.is_a("IfcRelAssignsToGroupByFactor") else 1.0
 
 
-def _connection_of(activity: Any) -> Any:
-    for rel in activity.AssignedToStructuralItem or ():
-        return rel.RelatingElement
-    return None
+def _connection_of(activity: Any, links: Links) -> Any:
+    return links.activity_target.get(activity.id())
 
 
 def _rotation(activity: Any, placements: Any) -> np.ndarray | None:
@@ -89,10 +84,10 @@ def _rotation(activity: Any, placements: Any) -> np.ndarray | None:
     return None if np.array_equal(r, np.eye(3)) else r
 
 
-def read_action(act: Any, units: Units, placements: Any, issues: Issues, load: LoadRead) -> Action | None:
+def read_action(act: Any, units: Units, placements: Any, issues: Issues, load: LoadRead, links: Links) -> Action | None:
     """A point force, a prescribed support displacement or a member's uniform temperature change."""
     applied = act.AppliedLoad
-    target = _connection_of(act)
+    target = _connection_of(act, links)
     if act.is_a("IfcStructuralCurveAction") and applied is not None and applied.is_a("IfcStructuralLoadTemperature"):
         if target is None or not target.is_a("IfcStructuralCurveMember"):
             issues.problem(act, "acts on no curve member (IfcRelConnectsStructuralActivity)")
@@ -127,7 +122,9 @@ def read_action(act: Any, units: Units, placements: Any, issues: Issues, load: L
     return Action(act, target, rot @ np.array(raw) * float(scale), None, kind)
 
 
-def read_loads(model: Any, file: Any, joints: set[int], units: Units, placements: Any, issues: Issues) -> LoadRead:
+def read_loads(
+    model: Any, file: Any, joints: set[int], units: Units, placements: Any, issues: Issues, links: Links
+) -> LoadRead:
     load = LoadRead()
     top = list(model.LoadedBy or ())
     single = len(file.by_type("IfcStructuralAnalysisModel")) == 1
@@ -135,7 +132,7 @@ def read_loads(model: Any, file: Any, joints: set[int], units: Units, placements
 
     def actions_of(group: Any, seen: set[int]) -> list[Any]:
         acts: list[Any] = []
-        for obj, _rel in _members(group):
+        for obj, _rel in _members(group, links):
             if obj.is_a("IfcStructuralAction"):
                 acts.append(obj)
             elif (
@@ -149,7 +146,7 @@ def read_loads(model: Any, file: Any, joints: set[int], units: Units, placements
 
     def acts_on_model(group: Any) -> bool:
         for act in actions_of(group, {group.id()}):
-            conn = _connection_of(act)
+            conn = _connection_of(act, links)
             if conn is not None and conn.id() in joints:
                 return True
         return False
@@ -165,7 +162,7 @@ def read_loads(model: Any, file: Any, joints: set[int], units: Units, placements
     stack = [g for g in chosen.values() if _type(g) == "LOAD_COMBINATION"]
     while stack:
         g = stack.pop()
-        for obj, _rel in _members(g):
+        for obj, _rel in _members(g, links):
             if obj.is_a("IfcStructuralLoadGroup") and obj.id() not in chosen:
                 chosen[obj.id()] = obj
                 if _type(obj) == "LOAD_COMBINATION":
@@ -179,7 +176,7 @@ def read_loads(model: Any, file: Any, joints: set[int], units: Units, placements
         t = _type(g)
         if t == "LOAD_COMBINATION":
             combo = Combo(g)
-            for case, factor, rel in _flatten(g, 1.0, set(), load, issues):
+            for case, factor, rel in _flatten(g, 1.0, set(), load, issues, links):
                 combo.factors.append((case, repr(factor).encode("ascii"), rel))
             load.combos.append(combo)
         elif t == "LOAD_CASE" or actions_of(g, {g.id()}):
@@ -188,7 +185,7 @@ def read_loads(model: Any, file: Any, joints: set[int], units: Units, placements
             if coefficients and any(coefficients):
                 case.self_weight = np.array([float(c) for c in coefficients], dtype=np.float64)
             for act in actions_of(g, {g.id()}):
-                a = read_action(act, units, placements, issues, load)
+                a = read_action(act, units, placements, issues, load, links)
                 if a is None:
                     continue
                 if a.kind != "temperature" and a.conn.id() not in joints:
@@ -199,19 +196,21 @@ def read_loads(model: Any, file: Any, joints: set[int], units: Units, placements
     return load
 
 
-def _flatten(group: Any, outer: float, seen: set[int], load: LoadRead, issues: Issues) -> list[tuple[Any, float, Any]]:
+def _flatten(
+    group: Any, outer: float, seen: set[int], load: LoadRead, issues: Issues, links: Links
+) -> list[tuple[Any, float, Any]]:
     out: list[tuple[Any, float, Any]] = []
     if group.id() in seen:
         issues.problem(group, "is a combination that contains itself")
         return out
     seen = seen | {group.id()}
-    for obj, rel in _members(group):
+    for obj, rel in _members(group, links):
         if not obj.is_a("IfcStructuralLoadGroup"):
             continue
         f = outer * _factor(rel)
         if _type(obj) == "LOAD_COMBINATION":
             load.flattened += 1
-            out.extend(_flatten(obj, f, seen, load, issues))
+            out.extend(_flatten(obj, f, seen, load, issues, links))
         else:
             out.append((obj, f, rel))
     return out

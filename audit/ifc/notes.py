@@ -1,16 +1,19 @@
-"""Codes of the notes the IFC reader makes (family ``SR``, source reading): how it read the file."""
+"""Codes of the notes the IFC reader makes: the source-reading family ``SR`` (``audit/checks/source_notes.py``).
+
+The codes are shared with the tables reader; each note says which part of the IFC file it is about.
+"""
 
 from __future__ import annotations
 
-#: the model was read as a plane or a space truss, and why
-NOTE_PLANE = "SR201"
-#: members meant to carry bending (rigid connections) are audited as pin-jointed bars
-NOTE_PIN_JOINTED = "SR202"
-#: entities of the file that a pin-jointed truss model has no place for, not read
-NOTE_IGNORED = "SR203"
-#: how units were read (a unit converted, a unit not assigned)
-NOTE_UNITS = "SR204"
-#: which items make up the model (nothing assigned to the analysis model, combinations flattened, ...)
-NOTE_ASSIGNMENT = "SR205"
+#: entities of the file that a pin-jointed truss model has no place for, not read (SR001: not read)
+NOTE_IGNORED = "SR001"
+#: how the file was read: plane or space truss, units, which items make up the model (SR002: how read)
+NOTE_PLANE = "SR002"
+NOTE_UNITS = "SR002"
+NOTE_ASSIGNMENT = "SR002"
+#: members meant to carry bending, rotational conditions, moments: audited as a pin-jointed truss (SR101)
+NOTE_PIN_JOINTED = "SR101"
+#: a unit conversion whose factor has no exact decimal form (SR102)
+NOTE_INEXACT = "SR102"
 
-__all__ = ["NOTE_ASSIGNMENT", "NOTE_IGNORED", "NOTE_PIN_JOINTED", "NOTE_PLANE", "NOTE_UNITS"]
+__all__ = ["NOTE_ASSIGNMENT", "NOTE_IGNORED", "NOTE_INEXACT", "NOTE_PIN_JOINTED", "NOTE_PLANE", "NOTE_UNITS"]

@@ -70,15 +70,13 @@ def frame_of(rows: np.ndarray, origin: np.ndarray) -> Frame:
 SPACE = frame_of(np.eye(3), np.zeros(3))
 
 
-def coordinate_plane(points: np.ndarray) -> int | None:
-    """The global axis (0, 1, 2) that all points share a coordinate along (Z first), or None."""
+def coordinate_planes(points: np.ndarray) -> list[int]:
+    """The global axes (Z first, then Y, X) along which all points share a coordinate: the normals of the
+    coordinate planes they lie in (two for points on one line)."""
     if len(points) == 0:
-        return 2
+        return [2]
     size = float(np.max(np.abs(points))) or 1.0
-    for axis in (2, 1, 0):
-        if np.ptp(points[:, axis]) <= _TOL * size:
-            return axis
-    return None
+    return [axis for axis in (2, 1, 0) if np.ptp(points[:, axis]) <= _TOL * size]
 
 
 def plane_frame(normal_axis: int, offset: float) -> Frame:

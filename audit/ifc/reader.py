@@ -14,15 +14,16 @@ from typing import Any
 
 from ..errors import InputError, Problem
 from ..sources import SourceRead
-from .geometry import Joint, Placements, read_joint
+from .geometry import Joint, Placements, Positions, read_joint
+from .links import Links, attr_index, read_links
 from .loads import read_loads
 from .members import read_members
-from .notes import NOTE_ASSIGNMENT, NOTE_IGNORED, NOTE_UNITS
+from .notes import NOTE_ASSIGNMENT, NOTE_IGNORED, NOTE_INEXACT, NOTE_UNITS
 from .places import Issues, label
 from .results import read_results
 from .supports import Support, read_support
 from .tree import assemble
-from .units import LENGTH, read_units
+from .units import LENGTH, QUANTITY, read_units
 
 #: schemas whose structural analysis entities the reader knows
 SCHEMAS = ("IFC4", "IFC4X3", "IFC4X3_ADD2", "IFC2X3")
@@ -65,15 +66,15 @@ def _pick_model(file: Any, model_name: str | None, name: str) -> Any:
     return models[0]
 
 
-def _items(model: Any, file: Any, issues: Issues) -> tuple[list[Any], list[Any]]:
+def _items(model: Any, file: Any, issues: Issues, links: Links) -> tuple[list[Any], list[Any]]:
     conns: dict[int, Any] = {}
     members: dict[int, Any] = {}
-    for rel in model.IsGroupedBy or ():
-        for obj in rel.RelatedObjects or ():
-            if obj.is_a("IfcStructuralPointConnection"):
-                conns[obj.id()] = obj
-            elif obj.is_a("IfcStructuralCurveMember"):
-                members[obj.id()] = obj
+    for obj, _rel in links.group_objects.get(model.id(), ()):
+        kind = obj.is_a()
+        if kind == "IfcStructuralPointConnection":
+            conns[obj.id()] = obj
+        elif kind in ("IfcStructuralCurveMember", "IfcStructuralCurveMemberVarying"):
+            members[obj.id()] = obj
     if not conns and not members and len(file.by_type("IfcStructuralAnalysisModel")) == 1:
         conns = {c.id(): c for c in file.by_type("IfcStructuralPointConnection")}
         members = {m.id(): m for m in file.by_type("IfcStructuralCurveMember")}
@@ -83,48 +84,30 @@ def _items(model: Any, file: Any, issues: Issues) -> tuple[list[Any], list[Any]]
                 "nothing is assigned to the analysis model: every structural item of the file is read",
                 model,
             )
-    for m in members.values():
-        for rel in m.ConnectedBy or ():
-            c = rel.RelatedStructuralConnection
-            if c is not None and c.is_a("IfcStructuralPointConnection"):
-                conns.setdefault(c.id(), c)
+    for mid in members:
+        for c, _rel in links.member_conns.get(mid, ()):
+            if c.id() not in conns and c.is_a("IfcStructuralPointConnection"):
+                conns[c.id()] = c
     return sorted(conns.values(), key=lambda e: e.id()), sorted(members.values(), key=lambda e: e.id())
-
-
-def _edge_vertices(member: Any) -> tuple[int, int] | None:
-    rep = member.Representation
-    for r in (rep.Representations or ()) if rep is not None else ():
-        for item in r.Items or ():
-            if item.is_a("IfcEdge") and not item.is_a("IfcOrientedEdge"):
-                return item.EdgeStart.id(), item.EdgeEnd.id()
-    return None
-
-
-def _vertex_id(conn: Any) -> int | None:
-    rep = conn.Representation
-    for r in (rep.Representations or ()) if rep is not None else ():
-        for item in r.Items or ():
-            if item.is_a("IfcVertexPoint"):
-                return int(item.id())
-    return None
 
 
 class _Ends:
     """The two joint names of each member, and the rigid end connections seen."""
 
-    def __init__(self, joints: dict[int, Joint], issues: Issues) -> None:
+    def __init__(self, joints: dict[int, Joint], issues: Issues, links: Links, file: Any) -> None:
         self.joints = joints
         self.issues = issues
+        self.links = links
         self.rigid: list[Any] = []
+        self.condition_i = attr_index(file, "IfcRelConnectsStructuralMember", "AppliedCondition")
 
     def __call__(self, member: Any) -> tuple[str, str] | None:
         conns = []
-        for rel in member.ConnectedBy or ():
-            c = rel.RelatedStructuralConnection
-            if c is None or not c.is_a("IfcStructuralPointConnection"):
+        for c, rel in self.links.member_conns.get(member.id(), ()):
+            if c.id() not in self.joints and not c.is_a("IfcStructuralPointConnection"):
                 continue
             conns.append(c)
-            cond = rel.AppliedCondition
+            cond = rel.get_argument(self.condition_i)
             if cond is not None and cond.is_a("IfcBoundaryNodeCondition"):
                 for a in "XYZ":
                     v = getattr(cond, f"RotationalStiffness{a}", None)
@@ -139,9 +122,6 @@ class _Ends:
             shown = ", ".join(label(c) for c in conns)
             self.issues.problem(member, f"is connected to {len(conns)} point connections ({shown}); a bar needs two")
             return None
-        edge = _edge_vertices(member)
-        if edge is not None and edge == (_vertex_id(conns[1]), _vertex_id(conns[0])):
-            conns.reverse()
         names = []
         for c in conns:
             j = self.joints.get(c.id())
@@ -162,31 +142,40 @@ def read_ifc(path: str | Path, *, model_name: str | None = None) -> SourceRead:
     units = read_units(projects[0] if projects else None, issues)
     for text in units.notes:
         issues.note(NOTE_UNITS, text, projects[0] if projects else "")
-    conns, members = _items(model, file, issues)
+    links = read_links(file)
+    conns, members = _items(model, file, issues, links)
     placements = Placements()
     length_scale = units.scale(LENGTH, "LENGTHUNIT")
     joints: dict[int, Joint] = {}
+    pos = Positions(file)
     for c in conns:
-        if not c.Name:
+        name = c.get_argument(pos.name)
+        if not name:
             issues.problem(c, "has no Name (the joint's id)")
-        j = read_joint(c, c.Name or f"#{c.id()}", length_scale, placements, issues)
+        j = read_joint(c, name or f"#{c.id()}", length_scale, placements, issues, pos)
         if j is not None:
             joints[c.id()] = j
-    ends = _Ends(joints, issues)
-    mem = read_members(members, ends, units, issues)
+    ends = _Ends(joints, issues, links, file)
+    mem = read_members(members, ends, units, issues, links, file)
     supports: list[Support] = []
     for c in conns:
         s = read_support(c, units, issues)
         if s is not None and (s.restrain or s.springs or s.rotations):
             supports.append(s)
-    loads = read_loads(model, file, set(joints), units, placements, issues)
-    results = read_results(model, file, units, placements, issues)
+    loads = read_loads(model, file, set(joints), units, placements, issues, links)
+    results = read_results(model, file, units, placements, issues, links)
     for kind in ("IfcStructuralSurfaceMember", "IfcStructuralCurveConnection", "IfcStructuralSurfaceConnection"):
         count = len(file.by_type(kind))
         if count:
             loads.ignored[kind] = loads.ignored.get(kind, 0) + count
     for kind, count in sorted(loads.ignored.items()):
         issues.note(NOTE_IGNORED, f"{count} × {kind} not read (a pin-jointed truss model has no place for it)")
+    for dim in sorted(units.inexact):
+        issues.note(
+            NOTE_INEXACT,
+            f"{QUANTITY.get(dim, 'values')} converted to the model's units ({units.length}, {units.force}) with a "
+            "factor that has no exact decimal form (rounded to 40 significant digits)",
+        )
     issues.raise_if_any()
     built = assemble(file, model, joints, mem, ends.rigid, supports, loads, results, units, issues)
     return built

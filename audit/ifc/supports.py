@@ -54,7 +54,8 @@ def read_support(conn: Any, units: Units, issues: Issues) -> Support | None:
     sup = Support(conn, cond)
     scale = units.scale(STIFFNESS, "LINEARSTIFFNESSUNIT")
     for i, a in enumerate("XYZ"):
-        kind, value = _kind(getattr(cond, f"TranslationalStiffness{a}"))
+        # IFC2X3 names them LinearStiffness and has no "fixed" flag: its values are stiffnesses (springs)
+        kind, value = _kind(getattr(cond, f"TranslationalStiffness{a}", getattr(cond, f"LinearStiffness{a}", None)))
         if kind == "fixed":
             sup.restrain.append(axes[i])
         elif kind == "spring":

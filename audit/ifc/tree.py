@@ -26,7 +26,7 @@ from .loads import LoadRead
 from .members import MemberRead
 from .notes import NOTE_ASSIGNMENT, NOTE_PIN_JOINTED, NOTE_PLANE
 from .places import Issues, Places, label
-from .plane import SPACE, Frame, across, coordinate_plane, frame_of, plane_frame
+from .plane import SPACE, Frame, across, coordinate_planes, frame_of, plane_frame
 from .results import CaseResult
 from .supports import Support
 from .units import Units
@@ -52,10 +52,31 @@ def _decide_frame(model: Any, joints: dict[int, Joint], supports: list[Support],
                 issues.problem(j.entity, "lies outside the plane of the IN_PLANE_LOADING_2D analysis model")
         issues.note(NOTE_PLANE, f"read as a plane truss ({why}; {frame.words})", model)
         return frame
-    axis = coordinate_plane(points)
-    if axis is None:
+    normals = coordinate_planes(points)
+    if not normals:
         issues.note(NOTE_PLANE, "read as a space truss: the joints do not lie in one coordinate plane", model)
         return SPACE
+    # joints on one line lie in two coordinate planes: prefer one with nothing across it, then one where
+    # what is across it is restrained
+    verdicts = [(axis, *_plane_verdict(axis, joints, supports, loads)) for axis in normals]
+    for wanted in ("clean", "restrained"):
+        for axis, verdict, _why in verdicts:
+            if verdict == wanted:
+                frame = plane_frame(axis, float(points[0, axis]) if len(points) else 0.0)
+                issues.note(
+                    NOTE_PLANE,
+                    f"read as a plane truss: the joints lie in the {_NAMES[2 - axis]} plane and every translation "
+                    f"across it is restrained or unloaded ({frame.words})",
+                    model,
+                )
+                return frame
+    issues.note(NOTE_PLANE, f"read as a space truss: {verdicts[0][2]}", model)
+    return SPACE
+
+
+def _plane_verdict(axis: int, joints: dict[int, Joint], supports: list[Support], loads: LoadRead) -> tuple[str, str]:
+    """``clean`` (nothing acts across the plane), ``restrained`` (only on joints restrained across it) or
+    ``space`` (with the reason)."""
     normal = np.zeros(3)
     normal[axis] = 1.0
     plane_name = _NAMES[2 - axis]
@@ -64,42 +85,29 @@ def _decide_frame(model: Any, joints: dict[int, Joint], supports: list[Support],
         for d in [*s.restrain, *(d for d, _ in s.springs)]:
             out, inside = across(d, normal)
             if out and inside:
-                issues.note(
-                    NOTE_PLANE,
-                    f"read as a space truss: the joints lie in the {plane_name} plane, but a support direction "
-                    f"at {label(s.entity)} is inclined to it",
-                    model,
+                where = label(s.entity)
+                return (
+                    "space",
+                    f"the joints lie in the {plane_name} plane, but a support direction at {where} is inclined to it",
                 )
-                return SPACE
-        if any(across(d, normal)[0] for d in s.restrain):
+        if any(across(d, normal)[0] for d in [*s.restrain, *(d for d, _ in s.springs)]):
             restrained_across.add(s.entity.id())
     for case in loads.cases:
         for a in case.actions:
-            if across(a.force, normal)[0] and a.conn.id() not in restrained_across:
-                issues.note(
-                    NOTE_PLANE,
-                    f"read as a space truss: the joints lie in the {plane_name} plane, but {label(a.entity)} "
-                    f"loads {label(a.conn)} across it and the joint is not restrained there",
-                    model,
+            if a.kind != "temperature" and across(a.force, normal)[0] and a.conn.id() not in restrained_across:
+                why = (
+                    f"the joints lie in the {plane_name} plane, but {label(a.entity)} loads {label(a.conn)} across "
+                    "it and the joint is not restrained there"
                 )
-                return SPACE
+                return "space", why
     weight = [c for c in loads.cases if c.self_weight is not None and across(c.self_weight, normal)[0]]
     if weight and len(restrained_across) < len(joints):
-        issues.note(
-            NOTE_PLANE,
-            f"read as a space truss: the joints lie in the {plane_name} plane, but the self weight of "
-            f"{label(weight[0].entity)} acts across it and not every joint is restrained there",
-            model,
+        why = (
+            f"the joints lie in the {plane_name} plane, but the self weight of {label(weight[0].entity)} acts "
+            "across it and not every joint is restrained there"
         )
-        return SPACE
-    frame = plane_frame(axis, float(points[0, axis]) if len(points) else 0.0)
-    issues.note(
-        NOTE_PLANE,
-        f"read as a plane truss: the joints lie in the {plane_name} plane and every translation across it is "
-        f"restrained or unloaded ({frame.words})",
-        model,
-    )
-    return frame
+        return "space", why
+    return ("restrained" if restrained_across else "clean"), ""
 
 
 def _direction(frame: Frame, d: np.ndarray) -> Any:

@@ -37,6 +37,18 @@ UNIT_WEIGHT: Dim = (-2, 1, -2, 0)
 #: standard acceleration of gravity, m/s^2 (exact by definition; common practice for weight from mass density)
 GRAVITY = Fraction("9.80665")
 
+#: what each dimension is, for notes
+QUANTITY: dict[Dim, str] = {
+    LENGTH: "lengths and displacements",
+    FORCE: "forces",
+    AREA: "section areas",
+    MODULUS: "E",
+    STIFFNESS: "spring stiffnesses",
+    PER_DEGREE: "alpha",
+    TEMPERATURE: "temperature changes",
+    UNIT_WEIGHT: "unit weights",
+}
+
 _PREFIX = {
     "EXA": 18, "PETA": 15, "TERA": 12, "GIGA": 9, "MEGA": 6, "KILO": 3, "HECTO": 2, "DECA": 1,
     "DECI": -1, "CENTI": -2, "MILLI": -3, "MICRO": -6, "NANO": -9, "PICO": -12, "FEMTO": -15, "ATTO": -18,
@@ -135,6 +147,9 @@ class Units:
     force: str = "N"
     temperature: str = "K"
     uses_temperature: bool = False  #: a temperature change was read (the model then declares its unit)
+    _scales: dict[tuple[Dim, str | None], Fraction] = field(default_factory=dict)
+    #: dimensions converted by a factor with no exact decimal form (their texts are rounded to 40 digits)
+    inexact: set[Dim] = field(default_factory=set)
     notes: list[str] = field(default_factory=list)
 
     def si(self, unit_type: str) -> Fraction | None:
@@ -144,6 +159,20 @@ class Units:
     def scale(self, dim: Dim, unit_type: str | None, own: Unit | None = None) -> Fraction:
         """Factor from the file's unit of a quantity (its own unit, else its assigned one, else the one
         derived from length and force) to the model's unit of that dimension."""
+        if own is None:
+            hit = self._scales.get((dim, unit_type))
+            if hit is None:
+                hit = self._scales[(dim, unit_type)] = self._scale(dim, unit_type, None)
+            return hit
+        return self._scale(dim, unit_type, own)
+
+    def _scale(self, dim: Dim, unit_type: str | None, own: Unit | None) -> Fraction:
+        factor = self._factor(dim, unit_type, own)
+        if not _finite_decimal(factor):
+            self.inexact.add(dim)
+        return factor
+
+    def _factor(self, dim: Dim, unit_type: str | None, own: Unit | None) -> Fraction:
         lf, ff = LENGTH_UNITS[self.length], FORCE_UNITS[self.force]
         # model unit of a dimension L^a (force)^b: force carries mass, so b = mass exponent
         b = dim[1]
@@ -210,23 +239,29 @@ def _unit_of(assignment: Any, unit_type: str) -> Any:
     return None
 
 
-_CTX = Context(prec=60)
+_CTX = Context(prec=80)
+_ROUND = Context(prec=40)  #: digits kept of a conversion with no exact decimal form
+
+
+def _finite_decimal(x: Fraction) -> bool:
+    den = x.denominator
+    for p in (2, 5):
+        while den % p == 0:
+            den //= p
+    return den == 1
 
 
 def number_text(value: float, scale: Fraction) -> bytes:
     """The decimal text of a stored float, converted by ``scale``: the shortest round-trip text of the
-    float times the exact factor, exact when that is a short decimal, else rounded to 17 digits."""
+    float times the exact factor, exact when that is a decimal of at most 40 digits, else rounded to 40."""
     text = repr(float(value))
     if scale == 1:
         return text.encode("ascii")
     exact = Fraction(text) * scale
-    den = exact.denominator
-    for p in (2, 5):
-        while den % p == 0:
-            den //= p
-    if den == 1:
-        d = _CTX.divide(Decimal(exact.numerator), Decimal(exact.denominator)).normalize(_CTX)
-        if len(d.as_tuple().digits) <= 20:
-            text = format(d, "f") if -8 <= d.adjusted() <= 16 else str(d).replace("E", "e")
-            return text.encode("ascii")
-    return repr(float(exact)).encode("ascii")
+    if _finite_decimal(exact):
+        d = _CTX.divide(Decimal(exact.numerator), Decimal(exact.denominator))
+    else:
+        d = _ROUND.divide(Decimal(exact.numerator), Decimal(exact.denominator))
+    d = _ROUND.plus(d).normalize(_ROUND) if len(d.as_tuple().digits) > 40 else d.normalize(_CTX)
+    out = format(d, "f") if -8 <= d.adjusted() <= 16 else str(d).replace("E", "e")
+    return out.encode("ascii")

@@ -163,7 +163,12 @@ def solve_high_precision(
     with stage(timings, "recompute"):
         solution = solve_with(model, system, factor, cond)
     t0 = time.perf_counter()
-    report = analyse(model, system, factor, solution, None, digits=digits)
+    if solution.nonlinear is not None:  # each state on its final active structure
+        from audit.nonlinear.exact import nonlinear_precision
+
+        report = nonlinear_precision(model, solution, None, digits)
+    else:
+        report = analyse(model, system, factor, solution, None, digits=digits)
     if timings is not None:
         cert = dict(report.timings).get("certificate", 0.0)
         timings.add("refine", time.perf_counter() - t0 - cert)

@@ -147,6 +147,8 @@ class PrecisionReport:
     method: str
     timings: tuple[tuple[str, float], ...]
     certificate: dict[str, Any] = field(default_factory=dict)
+    #: (case id, why) of the states of a non-linear model that have no solution (audit.nonlinear)
+    unsolved: tuple[tuple[str, str], ...] = ()
 
     def case(self, case_id: str) -> CasePrecision | None:
         for c in self.cases:
