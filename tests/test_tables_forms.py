@@ -223,3 +223,29 @@ def test_the_demo_handoff_workbook_audits_as_the_demo(tmp_path: Path) -> None:
         return {n: wb.get_sheet_by_name(n).to_python() for n in wb.sheet_names}
 
     assert cells(tmp_path / "again.xlsx") == cells(book)
+
+
+@pytest.mark.parametrize("form", ["csv", "xlsx"])
+@pytest.mark.parametrize("case", ["nl001_braced_bay_states", "nl101_hanger_uplift_no_solution", "self_weight"])
+def test_format_additions_through_tables(case: str, form: str, tmp_path: Path) -> None:
+    """``behaviour`` (members), ``unit_weight`` (materials) and the ``self_weight`` table reach the
+    format's additions (FORMAT.md): the same model and audit as the JSON.  The cases carry their own
+    sources: the rule cases' ``x-source`` and ``tests/test_selfweight.py``'s closed form."""
+    import json
+
+    if case == "self_weight":
+        from tests.test_selfweight import _doc
+
+        model_path = tmp_path / "self_weight.json"
+        model_path.write_text(json.dumps(_doc([1, -2])))
+    else:
+        model_path = ROOT / "tests" / "data" / "rules" / f"{case}.json"
+    source, _ = write_form(form, model_path, None, tmp_path / "tables")
+    read = load_source(source)
+    json_model = exchange.load_model(model_path)
+    if form == "csv":
+        assert exchange.dump_model(read.model) == exchange.dump_model(_untitled(json_model))
+    result = engine.audit(read.model, read.results, source_notes=read.notes)
+    json_result = engine.audit(json_model)
+    assert result.verdict == json_result.verdict
+    assert _findings(result) == _findings(json_result)
