@@ -159,7 +159,10 @@ def _recognise_columns(
     else:  # a workbook: an empty cell is "" (a cell holding only spaces is text, and its row is read)
         kept = [k for k, r in enumerate(data) if r.count("") + r.count(None) != len(r)]
     pad = width  # every row as wide as the table, so that a column is read without bounds checks
-    rows = [(first + k, r if len(r) >= pad else (*r, *([""] * (pad - len(r))))) for k in kept for r in (data[k],)]
+    if len(set(map(len, data))) <= 1 and (not data or len(data[0]) >= pad):  # a workbook's rows: all as wide
+        rows = [(first + k, data[k]) for k in kept]
+    else:
+        rows = [(first + k, r if len(r) >= pad else (*r, *([""] * (pad - len(r))))) for k in kept for r in (data[k],)]
     return Table(ours, grid, order, header_row, columns, headers, units, rows)
 
 

@@ -148,8 +148,11 @@ class Reader:
                 whole = list(map(float.is_integer, raw))
                 if all(whole) and max(map(abs, raw)) < 2**53:
                     return self._converted(table, col, list(map(int, raw)))
-                if not any(whole):
-                    return self._converted(table, col, list(map(str.encode, map(repr, raw))))
+                texts: list[Any] = list(map(str.encode, map(repr, raw)))
+                for k in itertools.compress(range(len(raw)), whole):  # integral values as integers
+                    if abs(raw[k]) < 2**53:
+                        texts[k] = int(raw[k])
+                return self._converted(table, col, texts)
         elif spec.kind == "id":
             fast = _fast_id
             types = set(map(type, raw))
