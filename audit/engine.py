@@ -19,6 +19,7 @@ from audit.checks import (
     compatibility,
     diagnosis,
     equilibrium,
+    nonlinear_causes,
     nonlinear_states,
     precision_check,
     recompute,
@@ -50,6 +51,7 @@ CHECK_MODULES: tuple[ModuleType, ...] = (
     combinations,
     precision_check,
     diagnosis,
+    nonlinear_causes,
 )
 
 

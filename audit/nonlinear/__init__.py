@@ -85,10 +85,13 @@ def solve_nonlinear(model: Model, system, factor: linsolve.Factor, cond: float =
     supported[system.supported_nodes] = True
     cases: list[CaseSolution] = []
     outcomes: list[StateOutcome] = []
+    previous = None  # the last solved active set: the next state starts from it (its structure is stable)
     for case_id, f, d0, g in state_actions(model):
         up = system.U_p @ g
         data = StateData(c=d0 - B @ up, b0=np.asarray(T.T @ (f - system.K_springs @ up)))
-        st = solve_state(solver, sign, data)
+        st = solve_state(solver, sign, data, previous)
+        if st.status == SOLVED:
+            previous = st.active
         method = "active set, then damped Newton" if st.damped else "active set"
         message = ""
         if st.status == MECHANISM:

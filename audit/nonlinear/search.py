@@ -20,7 +20,8 @@ Method, per state:
 1. **Active set** (primal–dual active-set iteration, the semismooth Newton
    method on ∇Π; Hintermüller, Ito & Kunisch, "The primal-dual active set
    strategy as a semismooth Newton method", SIAM J. Optim. 13(3), 2003): from
-   the linear solution, solve with the current active set, re-classify every
+   the linear solution (or the solved active set of the previous state, whose
+   structure is stable and whose factor is usually at hand), solve with the current active set, re-classify every
    non-linear member by the sign of its elongation, repeat until the set does
    not change.  The set then satisfies every condition above.  Each set
    visited is remembered; a set met again (a cycle) or a singular set ends
@@ -180,12 +181,20 @@ class _Problem:
         return float("inf")
 
 
-def solve_state(solver: ActiveSolver, sign: IntArray, data: StateData) -> StateSolution:
-    """The state of one load case or combination (see the module docstring)."""
+def solve_state(solver: ActiveSolver, sign: IntArray, data: StateData, start: BoolArray | None = None) -> StateSolution:
+    """The state of one load case or combination (see the module docstring).
+
+    ``start``: the active set to begin with (the solved set of another state, whose structure is known to
+    be stable); by default every member active, i.e. the linear solution.
+    """
     pb = _Problem(solver, sign, data)
     m = sign.size
-    active = np.ones(m, dtype=bool)
-    w = solver.solve(active.astype(np.float64), pb.rhs(active))
+    active = np.ones(m, dtype=bool) if start is None else start.copy()
+    try:
+        w = solver.solve(active.astype(np.float64), pb.rhs(active))
+    except SingularError:
+        active = np.ones(m, dtype=bool)
+        w = solver.solve(active.astype(np.float64), pb.rhs(active))
     best = (pb.energy(w), w)
     visited = {np.packbits(active).tobytes()}
     iterations = 1

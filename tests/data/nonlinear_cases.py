@@ -95,6 +95,15 @@ def main() -> None:
     }
     _write(cases, "nl_superposed_combination", sup, "combination written as the factored sum", "CB103", False)
 
+    sw = copy.deepcopy(panel)
+    for m in sw["members"]:
+        m["unit_weight"] = 78.5
+    sw["load_cases"][0]["self_weight"] = {"factor": 1.35}
+    without = copy.deepcopy(sw)
+    del without["load_cases"][0]["self_weight"]
+    sw["results"] = _results(without)
+    _write(cases, "nl_self_weight_left_out", sw, "self weight left out of the dead load", "RC102", False)
+
     ok = copy.deepcopy(panel)
     ok["results"] = right
     _write(rules, "nl001_braced_bay_states", ok, "correct hand-off of a braced bay", "NL001", True)
