@@ -98,10 +98,12 @@ GUIDE: dict[str, tuple[str, str, str]] = {
     ),
     # -------------------------------------------------------------- diagnosis
     "DX001": (
-        "The differences from the recomputation were tested against every single cause the tool knows "
-        "(sign, units, one member, one load, one support) and none explains them all.",
-        "no single cause explains the differences in case 'snow'; the closest, member 3's EA, leaves 4 differences",
-        "Look at the individual RC/EQ findings: several errors, or one the tool does not model, are present.",
+        "The differences from the recomputation were tested against every set of up to three causes the tool "
+        "knows (signs, units, axes, members, loads, supports, springs, table slips and swaps) and none explains "
+        "every reported number; the closest set and the numbers it leaves are named.",
+        "no explanation found for the differences in case 'snow'; the closest set (DX104 at member 3) still "
+        "leaves 4 numbers unexplained: member 5, member 7, ...",
+        "Look at the numbers left unexplained: more than three errors, or one the tool does not model, are present.",
     ),
     "DX002": (
         "Every value of one kind (forces, displacements or reactions) is off by one constant factor that "
@@ -129,7 +131,8 @@ GUIDE: dict[str, tuple[str, str, str]] = {
     "DX104": (
         "The differences are explained by one member having another EA in the source than in the model; "
         "the implied value is stated.",
-        "member 3's reported force is what an area of 1.144e-3 m² would give (model: 1.2e-3 m²)",
+        "member 3's axial stiffness in the source is 0.1005× the model's (the reported results fit EA = 2.1e+04 "
+        "against 2.1e+05: a section one decimal place out)",
         "Check that member's section and material in the source against the drawings; correct whichever "
         "is wrong and re-run.",
     ),
@@ -163,6 +166,54 @@ GUIDE: dict[str, tuple[str, str, str]] = {
         "the structure exerts on the supports.",
         "all reported reactions of case 'snow' have the opposite sign (forces on the supports)",
         "Flip the reactions' sign when exporting: the format gives the force the support exerts on the structure.",
+    ),
+    "DX111": (
+        "The differences are explained by one member missing from (or inactive in) the source's model: every "
+        "reported number fits the model without it, its own force reported as zero or not at all.",
+        "member D4 is left out of the source's model (or inactive in it): the reported numbers fit the model "
+        "without it (its reported force is 0)",
+        "Check whether the member exists: add it to the source's model (or remove it from the model) and re-run.",
+    ),
+    "DX112": (
+        "The differences are explained by one load (a node's whole load, or one component of it) entered at "
+        "another magnitude in the source; the node, the component and the fitted factor are stated.",
+        "the load (0, -12) kN at node B7 is entered at 1.5× its value in the source",
+        "Correct the load in the source's input (or in the model, if the source is right) and re-run.",
+    ),
+    "DX113": (
+        "The differences are explained by an inclined support restrained along another direction in the source "
+        "(an axis, or another angle); the fitted direction is stated.",
+        "the support at node R2, restrained along (0.70711, -0.70711) in the model, is entered along y in the source",
+        "Enter the roller's plane as the drawings give it (a direction, not an axis) in the source or the model.",
+    ),
+    "DX114": (
+        "The differences are explained by one spring support of another stiffness in the source; the fitted "
+        "stiffness is stated.",
+        "the spring at node S1 is 10× as stiff in the source (k = 2e+05 against the model's 2e+04)",
+        "Check the spring's stiffness and its unit in the source (a decimal place or kN/mm for kN/m) and re-run.",
+    ),
+    "DX115": (
+        "One reported number disagrees while every other number agrees with the model: an isolated slip in the "
+        "source's table (a typing error, a sign, a value copied from elsewhere); the corrected value is stated.",
+        "the reported axial force at member U3 is 125.3 where the model gives 152.3: one number wrong in the source",
+        "Correct that number in the source's output (or find why only it differs); the rest of the hand-off stands.",
+    ),
+    "DX116": (
+        "Two labels are exchanged in the source's table: two members' forces, or two joints' displacements or "
+        "reactions, are each the other's recomputed value.",
+        "the axial forces of members D3 and D4 are exchanged in the source's table",
+        "Fix the labels of those rows in the source's export; the analysis itself agrees with the model.",
+    ),
+    "DX117": (
+        "Two components of one joint are exchanged in the source's table (x with y, or any pair in 3D).",
+        "the displacements of joint U1 have their components swapped (x↔y) in the source's table",
+        "Fix the column order of that joint's row in the source's export.",
+    ),
+    "DX118": (
+        "The displacements (and reactions) along one axis have the opposite sign while member forces agree: "
+        "the source measures that axis the other way (e.g. y downwards).",
+        "the reported displacements and reactions along y have the opposite sign: the source measures y the other way",
+        "Convert the axis when exporting (the format's axes are the model's) and re-run.",
     ),
     # ------------------------------------------------------------ equilibrium
     "EQ001": (

@@ -17,9 +17,10 @@ from test_checks_common import ExactCase, context, exact_solve, model_of, parse,
 from test_mutation import PRATT
 
 from audit import stiffness
-from audit.checks import _diagnosis_block as db
-from audit.checks import _diagnosis_causes as dc
 from audit.checks import diagnosis
+from audit.checks.diagnosis import block as db
+from audit.checks.diagnosis import loads as dcl
+from audit.checks.diagnosis import members as dcm
 from audit.findings import Status
 from audit.model import FORCE_UNITS, LENGTH_UNITS
 
@@ -69,17 +70,17 @@ def test_sherman_morrison_update_matches_an_exact_solve_with_the_changed_member(
     assert ctx.solution is not None
     sol = ctx.solution.case("load")
     assert sol is not None
-    solver = dc.Superposition(ctx)
+    solver = db.Superposition(ctx)
     m = 1
     B = stiffness.compatibility_matrix(model)
     z = solver.displacements(B[[m]].T.toarray())[:, 0]
     dN = -solver.k * (B @ z)
     dN[m] += 1.0
     unit = solver.response(-z, dN, np.zeros_like(z))
-    base = dc.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
+    base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
     strain = float((B @ sol.displacements.reshape(-1))[m])
     beta = float((B[[m]] @ z)[0])
-    pred = dc.sherman_morrison_member(base, unit, strain, beta, dk=float(model.axial_stiffness()[m]))
+    pred = dcm.sherman_morrison_member(base, unit, strain, beta, dk=float(model.axial_stiffness()[m]))
     changed = copy.deepcopy(doc)
     changed["members"][m]["E"] = 4.0e8
     ex = exact_solve(changed)["load"]
@@ -142,12 +143,25 @@ def test_member_ea_from_displacements_gives_the_exact_value() -> None:
     assert f.data_dict()["compatibility_EA"] == pytest.approx(0.7e8 * 0.0015, rel=1e-5)
 
 
-def test_no_single_cause() -> None:
+def test_two_independent_slips_are_two_causes() -> None:
     ex = exact_solve(PRATT)["P"]
     n = ex.axial_forces.copy()
     n[[0, 3]] *= (1.05, 0.9)  # two independent mistakes
     out = _diagnose(PRATT, {"P": ExactCase("P", ex.displacements, n, ex.reactions)}, digits=6)
-    assert [f.code for f in out.findings] == ["DX001"]
+    assert sorted((f.code, f.location.member) for f in out.findings) == [("DX115", "1"), ("DX115", "4")]
+    for f in out.findings:
+        assert f.data_dict()["causes_in_set"] == 2
+
+
+def test_no_explanation_names_the_closest_set() -> None:
+    """Every member force off by its own factor: no set of three causes explains nine wrong numbers."""
+    ex = exact_solve(PRATT)["P"]
+    n = ex.axial_forces * (1.0 + 0.03 * np.arange(1, 10))
+    out = _diagnose(PRATT, {"P": ExactCase("P", ex.displacements, n, ex.reactions)}, digits=6)
+    [f] = out.findings
+    assert f.code == "DX001"
+    assert len(f.data_dict()["closest_codes"]) >= 1
+    assert f.data_dict()["unexplained"]
     assert out.findings[0].data_dict()["candidates_tried"] > 0
 
 
@@ -255,7 +269,7 @@ def hops_oracle(model: Any, sources: list[int]) -> np.ndarray:
 @pytest.mark.parametrize("sources", [[0], [5, 17], [40, 41, 42]], ids=["one", "two", "three"])
 def test_locality_counts_member_hops(sources: list[int]) -> None:
     model = model_of(grid_doc(8))
-    np.testing.assert_array_equal(dc.locality(model, sources), hops_oracle(model, sources))
+    np.testing.assert_array_equal(dcl.locality(model, sources), hops_oracle(model, sources))
 
 
 def test_ties_in_load_suspicion_go_to_the_loads_nearest_the_failing_member() -> None:
@@ -269,11 +283,11 @@ def test_ties_in_load_suspicion_go_to_the_loads_nearest_the_failing_member() -> 
     ctx = context(model, parse(model, results_text(model, {"P": ExactCase("P", ex.displacements, n, ex.reactions)})))
     cr = ctx.results.case("P")  # type: ignore[union-attr]
     sol = ctx.solution.case("P")  # type: ignore[union-attr]
-    base = dc.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
+    base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
     actions = diagnosis.cm.case_actions(model, "P")
-    ev = dc.Evaluator(model, actions, cr, ctx.tolerances, base)
-    hops = dc.locality(model, model.conn[m])
-    cands = dc.load_candidates(ctx, ev, cr, base, dc.Superposition(ctx), actions.loads, near=lambda: hops)
+    ev = db.Evaluator(model, actions, cr, ctx.tolerances, base)
+    hops = dcl.locality(model, model.conn[m])
+    cands = dcl.load_candidates(ctx, ev, cr, base, db.Superposition(ctx), actions.loads, near=lambda: hops)
     tried = {c.location.node for c in cands if c.code == "DX105"}
     loaded = np.flatnonzero(np.any(actions.loads != 0, axis=1))
     order = loaded[np.lexsort((loaded, hops_oracle(model, list(model.conn[m]))[loaded]))]
@@ -290,7 +304,7 @@ def test_ties_in_load_suspicion_go_to_the_loads_nearest_the_failing_member() -> 
 def test_search_selects_as_if_every_figure_were_exact(families: list[list[tuple[float, float]]]) -> None:
     """Exact figures e and lower bounds e·s (0 ≤ s ≤ 1) per family: the figures kept select the same
     candidates as exhaustive evaluation (all with e ≤ 1; else the first smallest e), by brute force."""
-    search = dc.Search()
+    search = db.Search()
     kept: list[float] = []
     exact: list[float] = []
     for fam in families:
@@ -321,16 +335,16 @@ def test_lower_bounds_never_exceed_the_figure(seed: int, inflate: float) -> None
     ctx = context(model, parse(model, results_text(model, {"P": ex}, digits=4)))
     cr = ctx.results.case("P")  # type: ignore[union-attr]
     actions = diagnosis.cm.case_actions(model, "P")
-    base = dc.Prediction(ex.displacements * 1.01, ex.axial_forces * 0.99, ex.reactions)
+    base = db.Prediction(ex.displacements * 1.01, ex.axial_forces * 0.99, ex.reactions)
     tol = ctx.tolerances
     old = db.SAMPLE
     db.SAMPLE = 3
     try:
-        ev = dc.Evaluator(model, actions, cr, tol, base)
+        ev = db.Evaluator(model, actions, cr, tol, base)
     finally:
         db.SAMPLE = old
     preds = [
-        dc.Prediction(
+        db.Prediction(
             base.U * (1 + 0.02 * rng.standard_normal(base.U.shape)),
             base.N * (1 + 0.02 * rng.standard_normal(base.N.shape)),
             base.R * (1 + 0.02 * rng.standard_normal(base.R.shape)),
@@ -375,4 +389,39 @@ def test_block_solve_equals_a_direct_sparse_solve(source: str) -> None:
     T = ctx.system.T
     Kt = ctx.system.K + ctx.system.K_springs
     expect = T @ spla.spsolve((T.T @ Kt @ T).tocsc(), T.T @ F)
-    np.testing.assert_allclose(dc.Superposition(ctx).displacements(F), expect, rtol=1e-9, atol=1e-12)
+    np.testing.assert_allclose(db.Superposition(ctx).displacements(F), expect, rtol=1e-9, atol=1e-12)
+
+
+def test_a_member_whose_removal_makes_a_mechanism_is_evidence_not_a_division() -> None:
+    """Regression: on the statically determinate Pratt truss, removing a member's stiffness (Δk = −k) makes
+    1 + Δk·bᵀz vanish (bᵀz = 1/k: the member's flexibility is its own in a determinate truss; common
+    practice).  The rank-one update must say "mechanism" (None), never divide by zero."""
+    model = model_of(PRATT)
+    ctx = context(model, None)
+    assert ctx.solution is not None
+    sol = ctx.solution.case("P")
+    assert sol is not None
+    solver = db.Superposition(ctx)
+    B = stiffness.compatibility_matrix(model)
+    base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
+    for m in range(model.n_members):
+        z = solver.displacements(B[[m]].T.toarray())[:, 0]
+        beta = float((B[[m]] @ z)[0])
+        assert beta * float(solver.k[m]) == pytest.approx(1.0, rel=1e-9)
+        unit = solver.response(-z, -solver.k * (B @ z), np.zeros_like(z))
+        for dk in (-1.0 / beta, -float(solver.k[m])):
+            assert dcm.sherman_morrison_member(base, unit, 0.0, beta, dk) is None
+
+
+@pytest.mark.parametrize("parts", [None, ("axial_forces", "reactions"), ("displacements", "axial_forces")])
+def test_a_member_left_out_of_a_determinate_truss_never_crashes(parts: Any) -> None:
+    """Each member's force reported 0 (as from a source that left the member out) on the determinate Pratt
+    truss: without the member the truss is a mechanism, so no DX111 may be claimed, and nothing raises."""
+    ex = exact_solve(PRATT)["P"]
+    for m in range(9):
+        n = ex.axial_forces.copy()
+        n[m] = 0.0
+        kw = {} if parts is None else {"parts": parts}
+        out = _diagnose(PRATT, {"P": ExactCase("P", ex.displacements, n, ex.reactions)}, digits=6, **kw)
+        assert out.status is not Status.NOT_RUN
+        assert "DX111" not in {f.code for f in out.findings}

@@ -27,7 +27,14 @@ def test_pipes_in_ids_keep_the_table_shape() -> None:
 def test_contents() -> None:
     out = markdown.render(samples.roof_result())
     assert out.splitlines()[2].startswith("**VERDICT: FAIL")
-    for part in ("### Checks", "### Worst discrepancies", "### Diagnoses", "DX201", "> This audit checks"):
+    for part in (
+        "### Checks",
+        "### Worst discrepancies",
+        "### Diagnoses",
+        "DX104",
+        "Root cause",
+        "> This audit checks",
+    ):
         assert part in out
 
 

@@ -40,7 +40,7 @@ import numpy as np
 
 from audit.findings import AuditResult, Severity
 from audit.model import FloatArray, Model
-from audit.reporters import _shared
+from audit.reporters import _explain, _shared
 from audit.reporters.geometry import (
     ISOMETRIC,
     WIDTH,
@@ -50,7 +50,7 @@ from audit.reporters.geometry import (
     nice_factor,
     projection_for,
 )
-from audit.reporters.scene import Cells, Item, Scene, Segments
+from audit.reporters.scene import Cells, Dots, Item, Scene, Segments
 from audit.reporters.symbols import (
     BLUE,
     CRIMSON,
@@ -164,6 +164,8 @@ def structure(model: Model, result: AuditResult | None = None, case: str | None 
         sel = drawn[level[drawn] == lv]
         ids = tuple(model.member_ids[i] for i in sel.tolist())
         items.append(Segments(_segments(T, model.coords, model.conn, sel), colour, width, dash, ids=ids, kind=kind))
+    cause_items, cause_line = _cause_marks(T, model, result)
+    items += cause_items
     items += support_symbols(T, model)
     loads = case_loads(model, case)
     items += load_arrows(T, model, loads)
@@ -182,6 +184,8 @@ def structure(model: Model, result: AuditResult | None = None, case: str | None 
         + (f"labels on {len(fail_labels)} of them (the worst, where room)." if n_fail else "no member failed.")
         + (f" Loads of case '{case}' drawn at the joints." if loads is not None and case else ""),
     ]
+    if cause_line:
+        lines.append(cause_line)
     if rest.size:
         lines.append(
             f"{drawn.size} of {model.n_members} members drawn one by one (those with findings); the other "
@@ -189,6 +193,7 @@ def structure(model: Model, result: AuditResult | None = None, case: str | None 
         )
     lines = wrap_caption(lines)
     legend = [
+        *([("cause found", INK, 9.0, "", True)] if cause_items else []),
         ("failing", CRIMSON, 4.0, "", False),
         ("warning", OCHRE, 2.6, "7 3", False),
         ("no finding", SLATE, 1.6, "", False),
@@ -204,6 +209,33 @@ def structure(model: Model, result: AuditResult | None = None, case: str | None 
         tuple(items),
         {"drawn": int(drawn.size), "aggregated": int(rest.size), "labelled": len(fail_labels), "transform": T},
     )
+
+
+def _cause_marks(T: Transform, model: Model, result: AuditResult | None) -> tuple[list[Item], str]:
+    """The members and joints named as the place of a cause by the diagnosis: each member outlined by a wide
+    hollow ink band, each joint by an ink ring, distinct from the crimson of members whose numbers merely
+    differ; and the caption line naming them."""
+    if result is None:
+        return [], ""
+    members, nodes = _explain.cause_places(result)
+    mi = model.member_index()
+    ni = model.node_index()
+    sel = np.array(sorted(mi[m] for m in members if m in mi), dtype=np.int64)
+    nsel = sorted(ni[n] for n in nodes if n in ni)
+    items: list[Item] = []
+    if sel.size:
+        ids = tuple(model.member_ids[i] for i in sel.tolist())
+        items.append(
+            Segments(_segments(T, model.coords, model.conn, sel), INK, 9.0, hollow=True, ids=ids, kind="cause")
+        )
+    if nsel:
+        pts = T.apply(model.coords[nsel])
+        items.append(Dots(pts, 8.0, "none", INK, ids=tuple(model.node_ids[i] for i in nsel), kind="cause"))
+    if not items:
+        return [], ""
+    names = [f"member {model.member_ids[i]}" for i in sel.tolist()] + [f"joint {model.node_ids[i]}" for i in nsel]
+    shown = ", ".join(names[:6]) + (f" and {len(names) - 6} more" if len(names) > 6 else "")
+    return items, f"Cause named by the diagnosis (outlined in ink): {shown}."
 
 
 def forces(model: Model, axial: FloatArray, case: str) -> Scene:

@@ -30,7 +30,7 @@ from typing import Any
 
 from audit.findings import AuditResult, CheckOutcome, Finding, Severity, Status
 from audit.model import Model
-from audit.reporters import _condense, _shared, drawing
+from audit.reporters import _condense, _explain, _shared, drawing
 from audit.reporters.scene import to_svg
 
 MAX_TABLE_ROWS = 200
@@ -55,6 +55,8 @@ h1 { font-size: 22px; margin: 12px 0 4px; } h2 { font-size: 18px; margin: 28px 0
 .verdict { padding: 14px 18px; border-radius: 6px; color: #fff; font-size: 20px; font-weight: 700; }
 .verdict.pass { background: var(--pass); } .verdict.fail { background: var(--fail); }
 .verdict small { display: block; font-size: 14px; font-weight: 400; }
+.cause { border-left: 6px solid var(--cause, #7b2cbf); padding: 4px 14px; margin: 10px 0; background: #f6f0fb; }
+.cause p { margin: 6px 0; } .cause .grouped { margin-left: 18px; color: #333; }
 table { border-collapse: collapse; margin: 6px 0 10px; font-size: 13.5px; width: 100%; }
 th, td { border-bottom: 1px solid var(--rule); padding: 3px 8px; text-align: left; vertical-align: top; }
 th { background: #eef2f5; } td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
@@ -236,6 +238,18 @@ def _case_words(case: str | None) -> str:
     return f"case {case}" if case is not None else ""
 
 
+def _lead(result: AuditResult) -> str:
+    """The root cause in plain words right under the verdict ("" for a clean hand-off)."""
+    lines = _explain.lead(result)
+    if not lines:
+        return ""
+    items = "".join(
+        f"<p><strong>Root cause.</strong> {e(t)}</p>" if t[:1].isupper() else f"<p class='grouped'>{e(t)}</p>"
+        for t in lines
+    )
+    return f"<div class='cause' id='root-cause'>{items}</div>"
+
+
 def _diagnoses(result: AuditResult) -> str:
     groups = _condense.diagnosis_groups(_shared.diagnoses(result))
     if not groups:
@@ -350,6 +364,7 @@ def render(result: AuditResult, model: Model | None = None, context: Mapping[str
         f"<title>{e(title)} ({verdict})</title><style>{_CSS}</style></head><body>",
         f"<div class='verdict {verdict}' id='verdict'>VERDICT: {verdict.upper()}"
         f"<small>{e(_shared.verdict_detail(result))}</small></div>",
+        _lead(result),
         f"<h1>{e(result.title)}</h1>",
         f"<p>{e(_condense.sentence('Model: ' + _shared.model_sentence(result.model_summary)))}</p>",
         "<h2>Stability</h2>",

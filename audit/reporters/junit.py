@@ -18,7 +18,7 @@ from typing import Any
 
 from audit.findings import AuditResult, CheckOutcome, Finding, Status
 from audit.model import Model
-from audit.reporters import _shared
+from audit.reporters import _explain, _shared
 
 _BAD_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
 
@@ -102,7 +102,11 @@ def render(result: AuditResult, model: Model | None = None, context: Mapping[str
             total[k] += v
     for key, value in zip(("tests", "failures", "errors", "skipped"), total, strict=True):
         root.set(key, str(value))
-    entries = [("verdict", result.verdict), ("tool-version", result.version), ("fail-on", result.fail_on.label)]
+    entries = [("verdict", result.verdict)]
+    lead = _explain.lead(result)
+    if lead:
+        entries.append(("root-cause", " ".join(lead)))
+    entries += [("tool-version", result.version), ("fail-on", result.fail_on.label)]
     entries += [(f"input:{_shared.file_name(n)}", sha) for n, sha in result.inputs]
     entries.append(("caution", _shared.CAUTION))
     for suite in root.findall("testsuite"):

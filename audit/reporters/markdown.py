@@ -14,7 +14,7 @@ from typing import Any
 
 from audit.findings import AuditResult, Finding, Severity, Status
 from audit.model import Model
-from audit.reporters import _condense, _shared
+from audit.reporters import _condense, _explain, _shared
 
 _SPECIAL = re.compile(r"([\\`*_{}\[\]<>|~])")
 #: width of the note digest in the checks table
@@ -119,6 +119,17 @@ def _discrepancies(result: AuditResult, limit: int) -> list[str]:
     return [*out, ""]
 
 
+def _lead(result: AuditResult) -> list[str]:
+    """The root cause in plain words, as a quotation right under the verdict (nothing for a clean hand-off)."""
+    out: list[str] = []
+    for line in _explain.lead(result):
+        if line[:1].isupper():
+            out += ([">"] if out else []) + [f"> **Root cause.** {esc(line)}" if not out else f"> {esc(line)}"]
+        else:
+            out.append(f"> - {esc(line)}")
+    return [*out, ""] if out else []
+
+
 def _diagnoses(result: AuditResult) -> list[str]:
     out = ["### Diagnoses", ""]
     groups = _condense.diagnosis_groups(_shared.diagnoses(result))
@@ -166,6 +177,7 @@ def _precision(result: AuditResult) -> list[str]:
 def render(result: AuditResult, model: Model | None = None, context: Mapping[str, Any] | None = None) -> str:
     """The Markdown report.  ``context["max_rows"]`` limits the discrepancy table (default 20)."""
     out = [f"## truss-audit: {esc(result.title)}", "", f"**{esc(_shared.verdict_line(result))}**", ""]
+    out += _lead(result)
     out.append(f"Model: {esc(_shared.model_sentence(result.model_summary))}.")
     out.append("")
     inputs = "; ".join(f"{esc(_shared.file_name(n))} (sha256 `{sha}`)" for n, sha in result.inputs)

@@ -45,7 +45,9 @@ def _dash(dash: str, width: float) -> Any:
 def paint(scene: Scene, dpi: int = DPI) -> bytes:
     """The scene as PNG bytes, painted with matplotlib's Agg backend."""
     pt = 72.0 / 96.0  # points per SVG px at the CSS reference resolution
-    fig = Figure(figsize=(scene.width / 96.0, scene.height / 96.0), dpi=dpi, facecolor="white")
+    # a whole number of pixels, rounded as documented (matplotlib truncates a fractional figure size)
+    px = (round(scene.width * dpi / 96.0), round(scene.height * dpi / 96.0))
+    fig = Figure(figsize=(px[0] / dpi, px[1] / dpi), dpi=dpi, facecolor="white")
     FigureCanvasAgg(fig)
     ax = fig.add_axes((0, 0, 1, 1))
     ax.set_xlim(0, scene.width)

@@ -145,14 +145,31 @@ def roof_result() -> AuditResult:
             Status.PASS,
             findings=(
                 Finding(
-                    "DX201",
-                    Severity.INFO,
-                    "member 3's reported force is what an area of 1.144e-3 m² would give (model: 1.2e-3 m²)",
+                    "DX104",
+                    Severity.WARNING,
+                    "member 3's axial stiffness in the source is 0.95333× the model's (the reported results fit "
+                    "EA = 2.288e+05 against 2.4e+05: wrong section or material); with this corrected, every "
+                    "reported number agrees (largest difference 0.41 of its allowance)",
                     case="snow",
                     location=Location(member="3"),
-                    data=(("implied_A", 1.144e-3), ("model_A", 1.2e-3)),
+                    data=(
+                        ("member", "3"),
+                        ("EA_ratio", 0.95333),
+                        (
+                            "cause",
+                            "member 3's axial stiffness in the source is 0.95333× the model's (the reported "
+                            "results fit EA = 2.288e+05 against 2.4e+05: wrong section or material)",
+                        ),
+                        (
+                            "agreement",
+                            "with this corrected, every reported number agrees (largest difference 0.41 "
+                            "of its allowance)",
+                        ),
+                        ("explains", 2),
+                    ),
                 ),
             ),
+            summary=(("axial_force_differing", 2), ("displacement_differing", 0), ("reaction_differing", 0)),
         ),
     )
     return AuditResult(

@@ -16,13 +16,15 @@ from typing import Any
 
 from audit.findings import AuditResult, CheckOutcome, Finding, Severity, Status
 from audit.model import Model
-from audit.reporters import _condense, _shared
+from audit.reporters import _condense, _explain, _shared
 
 WIDTH = 100
 #: warnings and errors without numbers listed one by one, at most (and at most 4 of one code)
 MAX_LISTED = 12
 #: diagnoses shown, at most
 MAX_DIAGNOSES = 10
+#: lines the root-cause explanation may take under the verdict
+MAX_LEAD_LINES = 10
 #: lines a finding's message may take before it is cut
 MAX_MESSAGE_LINES = 3
 
@@ -98,6 +100,7 @@ def _header(result: AuditResult, paint: _Paint) -> list[str]:
     verdict = _shared.verdict_line(result)
     colour = "green" if result.verdict == "pass" else "red"
     lines = [paint(v, colour) for v in textwrap.wrap(verdict, WIDTH)]
+    lines += _lead(result, paint)
     lines.append(f"truss-audit {result.version or '(version unknown)'}: audit of '{result.title}'")
     lines += _wrap("Model: " + _shared.model_sentence(result.model_summary), "")
     if result.inputs:
@@ -106,6 +109,19 @@ def _header(result: AuditResult, paint: _Paint) -> list[str]:
         lines.append("Inputs and their sha256:")
         lines += [f"  {n.ljust(width)}  {sha}" for n, (_, sha) in zip(names, result.inputs, strict=True)]
     return lines
+
+
+def _lead(result: AuditResult, paint: _Paint) -> list[str]:
+    """The root cause in plain words, right under the verdict (nothing for a clean hand-off); at most
+    ``MAX_LEAD_LINES`` lines, the rest under Diagnoses."""
+    out: list[str] = []
+    for i, sentence in enumerate(_explain.lead(result)):
+        grouped = i > 0 and not sentence[:1].isupper()
+        lines = _wrap(sentence, "  " if grouped else "", hang="  ")
+        out += [paint(lines[0], "bold") if not grouped else lines[0], *lines[1:]]
+    if len(out) > MAX_LEAD_LINES:
+        out = [*out[: MAX_LEAD_LINES - 1], out[MAX_LEAD_LINES - 1][: WIDTH - 2] + " …"]
+    return out
 
 
 # ---------------------------------------------------------------- stability
