@@ -364,7 +364,7 @@ def test_a_linear_hand_off_fails_by_member() -> None:
     codes, verdict = _audit(doc, _solved(linear))
     assert verdict == "fail"
     assert "CP103" in codes  # a tension-only diagonal reported in compression
-    assert "NC101" in codes  # and the cause: the source treated it as linear
+    assert "DX121" in codes  # and the cause: the source treated it as linear
 
 
 def test_superposed_combination_is_wrong_by_more_than_one_percent_both_ways() -> None:
@@ -400,7 +400,7 @@ def test_self_weight_left_out_fails() -> None:
     del without["load_cases"][0]["self_weight"]
     codes, verdict = _audit(doc, _solved(without))
     assert verdict == "fail"
-    assert "NC102" in codes
+    assert "DX122" in codes
     codes, verdict = _audit(doc, _solved(doc))
     assert verdict == "pass", codes
 
