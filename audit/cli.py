@@ -368,12 +368,20 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             parse(args.cluster)
         except ClusterError as exc:
             raise _UsageError(f"truss-audit: {exc}") from None
-    pairs = _expand_inputs(args.inputs)
+    if args.map and len(args.inputs) <= 2:  # one table source (its tables named by the mapping file)
+        pairs = [(args.inputs[0], args.inputs[1] if len(args.inputs) == 2 else None)]
+    else:
+        pairs = _expand_inputs(args.inputs)
     if args.results:
         if len(pairs) != 1:
             raise _UsageError("--results goes with exactly one model")
         pairs = [(pairs[0][0], args.results)]
     if not pairs:
+        from audit.tables import read_tables
+
+        for item in args.inputs:  # a folder of tables without its nodes or members: let the reader say so
+            if Path(item).is_dir() and any(Path(item).glob("*.csv")):
+                read_tables(item, map_path=args.map)
         raise _UsageError("no model files found")
     if len(pairs) == 1 and not args.cluster:  # with --cluster even one model goes to the cluster
         return _check_one(args, pairs[0][0], pairs[0][1], out, err)

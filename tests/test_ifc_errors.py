@@ -149,6 +149,7 @@ def test_several_models_chosen(tmp_path: Path) -> None:
     f.write(str(path))
     read = read_ifc(path, model_name=DEMO["title"])
     assert read.model.n_members == len(DEMO["members"])
+    assert any(n.code == "SR002" and "also holds 'alternative'" in n.message for n in read.notes)
     with pytest.raises(InputError, match="alternative"):
         read_ifc(path, model_name="alternative")  # an empty model: no nodes, no members
 
