@@ -16,7 +16,8 @@ Scheduling:
 * one MKL/OpenMP/BLAS thread per task (the nanny's pre-spawn environment, and again in the task);
 * lost workers: an exception inside the task is retried once (``retries=1``); a worker that dies
   while running the task has it rescheduled by the scheduler, which gives up after its
-  ``allowed-failures`` (set to 1 for the local cluster: a model whose worker dies twice).  A model
+  ``allowed-failures`` (set to 1 for the local cluster: a model whose worker dies twice; with
+  ``worker-saturation`` 1.0 a worker holds only the task it runs, so no other model is blamed).  A model
   that cannot be audited either way is reported as ``crashed`` with the worker's message, never lost.
 
 :func:`run` returns the entries in the order of the pairs given (sorted by path by the caller), so
@@ -139,6 +140,8 @@ def _connect(spec: ClusterSpec, timeout: float) -> tuple[Any, Any]:
     with dask.config.set(
         {
             "distributed.scheduler.allowed-failures": 1,
+            # a worker holds only the task it runs, so a dying worker casts no suspicion on queued ones
+            "distributed.scheduler.worker-saturation": 1.0,
             "distributed.nanny.pre-spawn-environ": {
                 "OMP_NUM_THREADS": 1,
                 "MKL_NUM_THREADS": 1,

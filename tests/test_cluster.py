@@ -109,7 +109,8 @@ def scheduler() -> Iterator[str]:
     """A LocalCluster of 2 worker processes, one thread each; a worker that dies twice under a task ends it."""
     import dask
 
-    with dask.config.set({"distributed.scheduler.allowed-failures": 1}):
+    config = {"distributed.scheduler.allowed-failures": 1, "distributed.scheduler.worker-saturation": 1.0}
+    with dask.config.set(config):
         local = distributed.LocalCluster(
             n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None, silence_logs=50
         )
