@@ -364,7 +364,7 @@ def test_a_linear_hand_off_fails_by_member() -> None:
     codes, verdict = _audit(doc, _solved(linear))
     assert verdict == "fail"
     assert "CP103" in codes  # a tension-only diagonal reported in compression
-    assert "NC101" in codes  # and the cause: the source treated it as linear
+    assert "DX121" in codes  # and the cause: the source treated it as linear
 
 
 def test_superposed_combination_is_wrong_by_more_than_one_percent_both_ways() -> None:
@@ -400,7 +400,7 @@ def test_self_weight_left_out_fails() -> None:
     del without["load_cases"][0]["self_weight"]
     codes, verdict = _audit(doc, _solved(without))
     assert verdict == "fail"
-    assert "NC102" in codes
+    assert "DX122" in codes
     codes, verdict = _audit(doc, _solved(doc))
     assert verdict == "pass", codes
 
@@ -415,3 +415,29 @@ def test_an_unconverged_solve_is_an_error(monkeypatch: pytest.MonkeyPatch) -> No
     codes = {f.code for f in result.findings}
     assert "NL102" in codes
     assert result.verdict == "fail"
+
+
+@pytest.mark.parametrize("delta", [-30, 30])
+def test_initial_strain_decides_the_state(delta: int) -> None:
+    """A tension-only bar beside a linear one between the same joints (FORMAT.md: slack only where it would
+    shorten once its initial strain is counted).  Cooled (δ = α·Δt·L < 0) it is pulled: with k_t, k_l the
+    two EA/L, compatibility and equilibrium N_t + N_l = 0 give N_t = −k_t·k_l·δ/(k_t + k_l) (derived here,
+    common practice); heated it would be pushed, so it goes slack and both forces are 0."""
+    doc = _model_doc(
+        {"A": (0, 0), "B": (5, 0)},
+        [
+            {"id": "lin", "start": "A", "end": "B", "E": 2e8, "A": 1e-3},
+            {"id": "rod", "start": "A", "end": "B", "E": 2e8, "A": 4e-4, "alpha": 1.2e-5, "behaviour": "tension_only"},
+        ],
+        [{"node": "A", "restrain": ["x", "y"]}, {"node": "B", "restrain": ["y"]}],
+        [{"id": "t", "temperature_changes": [{"member": "rod", "delta": delta}]}],
+    )
+    doc["units"]["temperature"] = "degC"
+    model = exchange.parse_model(json.dumps(doc))
+    case = solve_model(model).case("t")
+    assert case is not None
+    k_l, k_t = 2e8 * 1e-3 / 5, 2e8 * 4e-4 / 5
+    d = 1.2e-5 * delta * 5
+    expected = -k_t * k_l * d / (k_t + k_l) if delta < 0 else 0.0
+    assert case.axial_forces[1] == pytest.approx(expected, rel=1e-12, abs=1e-12)
+    assert case.axial_forces[0] == pytest.approx(-expected, rel=1e-12, abs=1e-12)

@@ -52,7 +52,7 @@ from typing import Any
 import numpy as np
 
 from audit.checks import _common as cm
-from audit.checks.diagnosis import axes, families, fit, loads, members, scales, supports, table, unsolved
+from audit.checks.diagnosis import axes, families, fit, loads, members, nonlinear, scales, supports, table, unsolved
 from audit.checks.diagnosis.base import CHECK_ID
 from audit.checks.diagnosis.block import Candidate, Evaluator, Prediction, Search, Superposition
 from audit.checks.equilibrium import joint_residuals
@@ -122,7 +122,9 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     # ---- 2-4. a structural cause: one member, one load, one support
     base = Prediction(ref.displacements, ref.axial_forces, ref.reactions)
     candidates: list[Candidate] = []
-    if ctx.factor is not None:
+    if ctx.factor is not None and nonlinear.applies(model):  # non-linear members, self weight
+        candidates += nonlinear.candidates(ctx, Evaluator(model, actions, obs, tol, base), cid, obs)
+    if ctx.factor is not None and not model.is_nonlinear:  # the families below predict by superposition
         solver = Superposition(ctx)
         ev = Evaluator(model, actions, obs, tol, base)
         search = Search()
@@ -197,7 +199,9 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         )
         return cm.outcome(CHECK_ID, cid, findings, "no explanation found", summary)
     # ---- 5. sets of up to three causes (every family, table mistakes and slips included)
-    found, closest, n_pool, rows = _fit_causes(ctx, cid, obs, base, actions, solver)
+    # a non-linear model: only the table mistakes (slips, swaps), which do not predict by superposition
+    fams = (table,) if model.is_nonlinear else families.FIT_FAMILIES
+    found, closest, n_pool, rows = _fit_causes(ctx, cid, obs, base, actions, Superposition(ctx), fams)
     summary.append(("fit_candidates", n_pool))
     if found is not None:
         findings += _fit_findings(ctx, cid, rows, found, ref.label)
@@ -210,7 +214,13 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
 
 
 def _fit_causes(
-    ctx: Context, cid: str, obs: CaseResults, base: Prediction, actions: cm.CaseActions, solver: Superposition
+    ctx: Context,
+    cid: str,
+    obs: CaseResults,
+    base: Prediction,
+    actions: cm.CaseActions,
+    solver: Superposition,
+    fams: tuple[Any, ...] = families.FIT_FAMILIES,
 ) -> tuple[fit.FitResult | None, fit.FitResult | None, int, fit.Rows | None]:
     model, tol = ctx.model, ctx.tolerances
     ev = Evaluator(model, actions, obs, tol, base)
@@ -218,7 +228,7 @@ def _fit_causes(
     if len(rows) == 0:
         return None, None, 0, None
     pb = fit.Problem(ctx, cid, obs, base, actions, rows, fit.Responses(solver, rows))
-    pool = [c for fam in families.FIT_FAMILIES for c in fam.candidates(pb)]
+    pool = [c for fam in fams for c in fam.candidates(pb)]
 
     def exact(causes: tuple[Any, ...], thetas: tuple[FloatArray, ...]) -> float:
         return ev.worst(fit.apply_set(base, causes, thetas))
