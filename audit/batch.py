@@ -118,6 +118,17 @@ def single_thread() -> Any:
     return threadpool_limits(limits=1)
 
 
+def _one_thread_task(
+    task: Callable[[str, str | None, Mapping[str, Any]], BatchEntry],
+    model_path: str,
+    results_path: str | None,
+    kwargs: Mapping[str, Any],
+) -> BatchEntry:
+    """A pool worker's unit of work under :func:`single_thread` (MKL may be loaded before the initializer ran)."""
+    with single_thread():
+        return task(model_path, results_path, kwargs)
+
+
 def _tolerances(kwargs: Mapping[str, Any]) -> Any:
     from audit.tolerances import Tolerances
 
@@ -324,7 +335,7 @@ def _run_pool(
     with ProcessPoolExecutor(
         max_workers=jobs, mp_context=get_context("spawn"), initializer=_limit_threads, initargs=(threads,)
     ) as pool:
-        futures: list[Future[BatchEntry]] = [pool.submit(task, m, r, kwargs) for m, r in pairs]
+        futures: list[Future[BatchEntry]] = [pool.submit(_one_thread_task, task, m, r, kwargs) for m, r in pairs]
         for i, fut in enumerate(futures):
             try:
                 out[i] = fut.result()
