@@ -52,7 +52,8 @@ from typing import Any
 import numpy as np
 
 from audit.checks import _common as cm
-from audit.checks.diagnosis import axes, families, fit, loads, members, scales, supports, table, unsolved
+from audit.checks.diagnosis import axes, fit, loads, members, scales, supports, table, unsolved
+from audit.checks.diagnosis import families as registry
 from audit.checks.diagnosis.base import CHECK_ID
 from audit.checks.diagnosis.block import Candidate, Evaluator, Prediction, Search, Superposition
 from audit.checks.equilibrium import joint_residuals
@@ -121,6 +122,14 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
 
     # ---- 2-4. a structural cause: one member, one load, one support
     base = Prediction(ref.displacements, ref.axial_forces, ref.reactions)
+    if ctx.factor is not None and _one_number(js_left) and not _at_loaded_support(model, actions, js_left):
+        # one number differs: a slip explains it, and a structural cause that changes that number alone is no
+        # simpler (base.RANK_*) unless it is a load at a support (missing or doubled: that reaction only)
+        solver = Superposition(ctx)
+        found, _closest, _n, rows = _fit_causes(ctx, cid, obs, base, actions, solver, families=())
+        if found is not None and rows is not None:
+            findings += _fit_findings(ctx, cid, rows, found, ref.label)
+            return cm.outcome(CHECK_ID, cid, findings, "explained by one number wrong (a slip)", summary)
     candidates: list[Candidate] = []
     if ctx.factor is not None:
         solver = Superposition(ctx)
@@ -209,16 +218,34 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     return cm.outcome(CHECK_ID, cid, findings, "no explanation found", summary)
 
 
+def _at_loaded_support(model: Model, actions: cm.CaseActions, js: dict[str, cm.Judgement]) -> bool:
+    """Whether the one differing number is a reaction at a loaded node."""
+    j = js["reaction"]
+    if not j.failed.any():
+        return False
+    nodes = np.flatnonzero(np.any(j.failed, axis=1))
+    return bool(np.any(actions.loads[nodes] != 0.0))
+
+
 def _fit_causes(
-    ctx: Context, cid: str, obs: CaseResults, base: Prediction, actions: cm.CaseActions, solver: Superposition
+    ctx: Context,
+    cid: str,
+    obs: CaseResults,
+    base: Prediction,
+    actions: cm.CaseActions,
+    solver: Superposition,
+    families: tuple[Any, ...] | None = None,
 ) -> tuple[fit.FitResult | None, fit.FitResult | None, int, fit.Rows | None]:
+    """The multi-cause fit over the candidates of ``families`` (default: every registered fit family; ``()``:
+    slips only)."""
     model, tol = ctx.model, ctx.tolerances
     ev = Evaluator(model, actions, obs, tol, base)
     rows = fit.Rows(ev, base, model.dim)
     if len(rows) == 0:
         return None, None, 0, None
     pb = fit.Problem(ctx, cid, obs, base, actions, rows, fit.Responses(solver, rows))
-    pool = [c for fam in families.FIT_FAMILIES for c in fam.candidates(pb)]
+    fams = registry.FIT_FAMILIES if families is None else families
+    pool = [c for fam in fams for c in fam.candidates(pb)]
 
     def exact(causes: tuple[Any, ...], thetas: tuple[FloatArray, ...]) -> float:
         return ev.worst(fit.apply_set(base, causes, thetas))

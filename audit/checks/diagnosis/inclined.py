@@ -152,8 +152,7 @@ def candidates(pb: Problem) -> list[Cause]:
     K = pb.ctx.system
     Ssol = solver.displacements(-(K.K @ S + K.K_springs @ S)) + S.toarray()
     dofs = [(int(model.restraint_node[r]) * d + a) for r in single for a in range(d)]
-    E = sp.csc_matrix((np.ones(len(dofs)), (dofs, np.arange(len(dofs)))), shape=(model.n_dofs, len(dofs)))
-    Zall = solver.displacements(E)
+    Zall = solver.dof_columns(dofs)
     out: list[Cause] = []
     for i, r in enumerate(single):
         node = int(model.restraint_node[r])

@@ -308,7 +308,10 @@ def candidates(pb: Problem) -> list[Cause]:
                 c_i.append(c)
                 v_i.append(float(loads[n, a]))
     F = sp.csc_matrix((v_i, (r_i, c_i)), shape=(model.n_dofs, len(specs)))
-    X = pb.solver.displacements(F)  # one block solve
+    # the responses as combinations of unit-force responses on the loaded dofs: one block solve for the dofs
+    # not solved before (shared with the supports added and the inclined supports)
+    used = np.unique(F.indices)
+    X = pb.solver.dof_columns(used) @ F[used].toarray()
     cols = pb.resp.columns(X, F=F)
     out: list[Cause] = []
     funit = model.units.force

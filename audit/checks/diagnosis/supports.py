@@ -258,8 +258,7 @@ def candidates(pb: Problem) -> list[Cause]:
         for node in unsup.tolist():
             axes = [a for a in range(d) if big[node, a]]
             dofs = [node * d + a for a in axes]
-            E = sp.csc_matrix((np.ones(len(dofs)), (dofs, np.arange(len(dofs)))), shape=(model.n_dofs, len(dofs)))
-            X = solver.displacements(E)
+            X = solver.dof_columns(dofs)
             mask = solver.mask.copy()
             mask[node] = True
             cols = pb.resp.columns(X, mask=mask)
