@@ -40,6 +40,9 @@ SLIPS_PER_STEP = 4
 #: exact checks of the best sets before giving up
 EXACT_TRIES = 12
 KEYS = ("U", "N", "R")
+#: above this many dofs, at most LARGE_LIMIT candidates per family in the fit (see Problem.limit)
+LARGE_DOFS = 20000
+LARGE_LIMIT = 12
 
 
 class Rows:
@@ -212,6 +215,14 @@ class Problem:
     @property
     def solver(self) -> Superposition:
         return self.resp.solver
+
+    @property
+    def limit(self) -> int:
+        """Candidates per family: ``max_candidates``, but at most ``LARGE_LIMIT`` on a model of more than
+        ``LARGE_DOFS`` dofs (each is a solve column; the candidates come ranked by their evidence, and the
+        bounded single-cause search before the fit has tried ``max_candidates`` of each already)."""
+        n = int(self.ctx.model.n_dofs)
+        return self.tol.max_candidates if n <= LARGE_DOFS else min(self.tol.max_candidates, LARGE_LIMIT)
 
 
 @dataclass(frozen=True)

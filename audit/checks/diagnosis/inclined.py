@@ -147,7 +147,7 @@ def candidates(pb: Problem) -> list[Cause]:
             for r in single
         ]
         single = [single[i] for i in np.argsort(-np.asarray(gap), kind="stable")]
-    single = single[: pb.tol.max_candidates]
+    single = single[: pb.limit]
     S = sp.csc_matrix(pb.ctx.system.U_p[:, single])
     K = pb.ctx.system
     Ssol = solver.displacements(-(K.K @ S + K.K_springs @ S)) + S.toarray()

@@ -276,7 +276,7 @@ def _suspects(pb: Problem) -> Any:
     else:
         miss = np.abs(pb.solver.B @ np.nan_to_num(obs.displacements - base.U).reshape(-1))
     ranked = np.argsort(-miss, kind="stable")
-    return ranked[miss[ranked] > 0][: tol.max_candidates]
+    return ranked[miss[ranked] > 0][: pb.limit]
 
 
 def candidates(pb: Problem) -> list[Cause]:
