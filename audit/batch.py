@@ -149,13 +149,17 @@ def _render(result: AuditResult, model: Any) -> tuple[str | None, str | None]:
 
 def audit_file(model_path: str, results_path: str | None, audit_kwargs: Mapping[str, Any]) -> BatchEntry:
     """Read and audit one model; never raises (every failure becomes the entry's status)."""
-    from audit import engine, exchange
+    from audit import engine
     from audit.errors import InputError
+    from audit.sources import load_source, load_source_results
 
     t0 = time.perf_counter()
     try:
-        model = exchange.load_model(model_path)
-        results = exchange.load_results(results_path, model) if results_path else None
+        read = load_source(model_path)  # a model JSON, a workbook, a folder of tables or an IFC file
+        model, results, notes = read.model, read.results, read.notes
+        if results_path:
+            given = load_source_results(results_path, model)
+            results, notes = given.results, notes + given.notes
     except InputError as exc:
         problems = tuple((p.path, p.message) for p in exc.problems)
         first = problems[0][1] if problems else str(exc)
@@ -173,7 +177,7 @@ def audit_file(model_path: str, results_path: str | None, audit_kwargs: Mapping[
             model_path, results_path, "input_error", time.perf_counter() - t0, error=f"{exc.strerror or exc}"
         )
     try:
-        result = engine.audit(model, results, **_engine_kwargs(audit_kwargs))
+        result = engine.audit(model, results, source_notes=notes, **_engine_kwargs(audit_kwargs))
         json_text, junit_text = _render(result, model)
     except Exception as exc:  # the audit itself must not take the batch down
         last = traceback.extract_tb(exc.__traceback__)[-1]

@@ -329,12 +329,20 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
 def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.digits < 16 or args.digits > 200:
         raise _UsageError("--digits must be between 16 and 200")
-    pairs = _expand_inputs(args.inputs)
+    if args.map and len(args.inputs) <= 2:  # one table source (its tables named by the mapping file)
+        pairs = [(args.inputs[0], args.inputs[1] if len(args.inputs) == 2 else None)]
+    else:
+        pairs = _expand_inputs(args.inputs)
     if args.results:
         if len(pairs) != 1:
             raise _UsageError("--results goes with exactly one model")
         pairs = [(pairs[0][0], args.results)]
     if not pairs:
+        from audit.tables import read_tables
+
+        for item in args.inputs:  # a folder of tables without its nodes or members: let the reader say so
+            if Path(item).is_dir() and any(Path(item).glob("*.csv")):
+                read_tables(item, map_path=args.map)
         raise _UsageError("no model files found")
     if len(pairs) == 1:
         return _check_one(args, pairs[0][0], pairs[0][1], out, err)

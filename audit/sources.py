@@ -117,6 +117,8 @@ def load_source(path: str | Path, *, map_path: str | Path | None = None, ifc_mod
         every problem found, each with its place (JSON path, table place or IFC entity).
     """
     kind = source_kind(path)
+    if kind is None and (map_path is not None or any(Path(path).glob("*.csv"))):
+        kind = "tables"  # tables named by the mapping file, or some missing: the reader says which
     if kind is None:
         raise _refuse(path, "this folder holds no 'nodes' and 'members' tables, so it is not a table source")
     if map_path is not None and kind not in ("tables", "workbook"):
@@ -175,7 +177,7 @@ def neutral_documents(
     from audit.exchange.write import _dump_embedded_results, _to_text, dump_model
 
     kind = source_kind(path)
-    if kind in ("tables", "workbook"):
+    if kind in ("tables", "workbook") or (kind is None and map_path is not None):
         from audit import tables
 
         tree, read = tables.read_table_documents(path, map_path=map_path)

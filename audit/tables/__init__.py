@@ -33,7 +33,7 @@ from .cells import is_empty, read_id
 from .grid import Grid, read_folder, read_workbook
 from .mapping import Mapping, read_mapping
 from .model_tree import model_document
-from .names import ABOUT_KEYS, MODEL_TABLES, RESULTS_TABLES, header_key
+from .names import ABOUT_KEYS, MODEL_TABLES, RESULTS_TABLES
 from .places import Place, TableProblems
 from .recognise import Table, recognise
 from .results_tree import results_document
@@ -56,15 +56,18 @@ def _settings(tables: dict[str, Table], mapping: Mapping, notes: list[SourceNote
     about = tables.get("about")
     if about is not None:
         grid = about.grid
+        # the key and value columns by their headers; without that header row, the first two columns
+        has_header = "key" in about.columns and "value" in about.columns
+        ki, vi = (about.columns["key"], about.columns["value"]) if has_header else (0, 1)
         for k, row in enumerate(grid.rows):
-            if len(row) < 1 or is_empty(row[0]):
-                continue
             number = grid.first_row + k
-            key = read_id(row[0])
-            value = read_id(row[1]) if len(row) > 1 and not is_empty(row[1]) else ""
-            if (number == about.header_row and header_key(key) == "key") or not value:
-                continue  # the header, or a setting left empty
-            place = Place(about.where, number, "value", (about.order, number, 1))
+            if len(row) <= ki or is_empty(row[ki]) or (has_header and number <= about.header_row):
+                continue
+            key = read_id(row[ki])
+            value = read_id(row[vi]) if len(row) > vi and not is_empty(row[vi]) else ""
+            if not value:
+                continue  # a setting left empty
+            place = Place(about.where, number, "value", (about.order, number, vi))
             if key.lower() in ABOUT_KEYS:
                 out[key.lower()] = (value, place)
             else:

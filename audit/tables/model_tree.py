@@ -7,8 +7,10 @@ settlements tables in the order they first appear; combinations by their ids.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
+from ..exchange.problems import Path_
 from ..exchange.version import FORMAT_VERSION, MODEL_FORMAT
 from .names import MODEL_TABLES
 from .places import Place
@@ -18,19 +20,17 @@ from .rows import Reader
 _AXES = ("x", "y", "z")
 
 
+def _at(top: str, key: str) -> Callable[[int], Path_]:
+    """The tree path of row ``i``'s ``key`` in the list ``top``."""
+    return lambda i: (top, i, key)
+
+
 def nodes(r: Reader, t: Table, dim: int) -> list[dict[str, Any]]:
-    out = []
-    axes = _AXES[:dim]
-    r.require_columns(t, ("id", *axes))
-    rows: dict[str | int, int] = {}
-    for i, (row, cells) in enumerate(t.rows):
-        base = ("nodes", i)
-        item: dict[str, Any] = {"id": r.value(t, row, cells, "id", (*base, "id"))}
-        for a in axes:
-            item[a] = r.value(t, row, cells, a, (*base, a))
-        out.append(item)
-        rows[i] = row
-    r.rows_of(t, ("nodes",), rows, {k: k for k in ("id", *axes)})
+    keys = ("id", *_AXES[:dim])
+    r.require_columns(t, keys)
+    cols = [r.column(t, k, _at("nodes", k)) for k in keys]
+    out = [dict(zip(keys, values, strict=True)) for values in zip(*cols, strict=True)]
+    r.rows_of(t, ("nodes",), {i: row for i, (row, _c) in enumerate(t.rows)}, {k: k for k in keys})
     return out
 
 
@@ -58,17 +58,12 @@ def named(r: Reader, t: Table, top: str, keys: tuple[str, ...]) -> dict[str, dic
 def members(r: Reader, t: Table) -> list[dict[str, Any]]:
     keys = ("id", "start", "end", "E", "A", "material", "section", "alpha", "unit_weight", "behaviour")
     r.require_columns(t, ("id", "start", "end"))
+    present = [k for k in keys if k in t.columns or k in ("id", "start", "end")]
+    cols = [r.column(t, k, _at("members", k)) for k in present]
     out = []
-    rows: dict[str | int, int] = {}
-    for i, (row, cells) in enumerate(t.rows):
-        item: dict[str, Any] = {}
-        for k in keys:
-            v = r.value(t, row, cells, k, ("members", i, k))
-            if v is not None:
-                item[k] = v
-        out.append(item)
-        rows[i] = row
-    r.rows_of(t, ("members",), rows, {k: k for k in keys})
+    for values in zip(*cols, strict=True):
+        out.append({k: v for k, v in zip(present, values, strict=True) if v is not None})
+    r.rows_of(t, ("members",), {i: row for i, (row, _c) in enumerate(t.rows)}, {k: k for k in keys})
     return out
 
 
@@ -143,16 +138,14 @@ class _Cases:
 def _case_rows(r: Reader, t: Table, cases: _Cases, key: str, cols: dict[str, str], required: tuple[str, ...]) -> None:
     """Rows of a per-case table appended to ``key`` of their load case; ``cols``: tree key -> column."""
     r.require_columns(t, ("case", *required))
+    # the place of a cell is recorded per case below; a problem found here names the row directly
+    columns = {tree_key: r.column(t, col, _at(key, "\x00")) for tree_key, col in cols.items()}
     rows_by_case: dict[int, dict[str | int, int]] = {}
-    for row, cells in t.rows:
+    for n, (row, cells) in enumerate(t.rows):
         k, lc = cases.case(t, row, cells)
         items = lc.setdefault(key, [])
         j = len(items)
-        item: dict[str, Any] = {}
-        for tree_key, col in cols.items():
-            v = r.value(t, row, cells, col, ("load_cases", k, key, j, tree_key))
-            if v is not None:
-                item[tree_key] = v
+        item = {tree_key: values[n] for tree_key, values in columns.items() if values[n] is not None}
         items.append(item)
         rows_by_case.setdefault(k, {})[j] = row
     for k, rows in rows_by_case.items():

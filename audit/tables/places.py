@@ -62,7 +62,7 @@ class Provenance:
         """The place of ``path``: the nearest recorded place at or above it."""
         for cut in range(len(path), -1, -1):
             head = path[:cut]
-            if head in self.exact:
+            if head in self.exact and (cut == len(path) or head not in self.containers):
                 return self.exact[head]
             if cut < len(path):
                 rows = self.containers.get(head)
@@ -72,6 +72,8 @@ class Provenance:
                     header = rows.headers.get(str(rest[0])) if rest else rows.value_column
                     column, col_order = header if header else (None, 0)
                     return Place(rows.where, row, column, (rows.table_order, row, col_order))
+            if head in self.exact:
+                return self.exact[head]
         return None
 
 

@@ -107,6 +107,9 @@ def _recognise_columns(
         return Table(ours, grid, order, grid.first_row, {}, {}, {}, [])
     header_row = grid.first_row + top
     header = grid.rows[top]
+    if ours == "about" and "key" not in {header_key(_header_text(c)) for c in header}:
+        # an about table without its key/value header: every row is a setting (key, value)
+        return Table(ours, grid, order, header_row - 1, {}, {}, {}, [])
     mapped = mapping.columns.get(ours, {})
     by_header = {theirs.strip(): col for col, theirs in mapped.items()}
     columns: dict[str, int] = {}
@@ -171,8 +174,3 @@ def _column_unit(table: str, col: str, text: str, place: Place, probs: TableProb
         probs.add(place, f"unit {text!r} does not fit this column: it takes {words}")
         return None
     return unit
-
-
-def header_key_of(text: str) -> str:
-    """The comparison key of a header (re-exported for the template writer's self-check)."""
-    return header_key(text)

@@ -7,6 +7,7 @@ or member given twice for one case is an error.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 from ..exchange.problems import Path_
@@ -20,6 +21,10 @@ _PARTS: dict[str, tuple[str, str, dict[str, str]]] = {
     "forces": ("axial_forces", "member", {}),
     "reactions": ("reactions", "node", {"x": "rx", "y": "ry", "z": "rz"}),
 }
+
+
+def _constant(path: Path_) -> Callable[[int], Path_]:
+    return lambda _i: path
 
 
 def results_document(
@@ -56,38 +61,37 @@ def results_document(
         elif not comps and "N" not in t.columns:
             r.probs.add(Place(t.where, t.header_row, None, (t.order, t.header_row, 0)), "no 'N' column")
         rows: dict[str, dict[str | int, int]] = {}
-        for row, cells in t.rows:
-            if "case" in t.columns:
-                case = r.value(t, row, cells, "case", (*prefix, "cases", "\x00"))
-            else:
-                case = default_case[0] if default_case else ""
-            body = cases.setdefault(case, {})
-            if case not in rows and (*prefix, "cases", case) not in r.prov.exact:
-                r.at((*prefix, "cases", case), t.place(row, "case") if "case" in t.columns else t.place(row))
+        nowhere = _constant((*prefix, "cases", "\x00"))  # a cell's problem is reported at its place
+        case_col = r.column(t, "case", nowhere) if "case" in t.columns else None
+        id_values = r.column(t, id_col, nowhere)
+        comp_values = {axis: r.column(t, col, nowhere) for axis, col in comps.items()}
+        n_values = r.column(t, "N", nowhere) if not comps else None
+        fixed_case = default_case[0] if default_case else ""
+        for n, (row, _cells) in enumerate(t.rows):
+            case = case_col[n] if case_col is not None else fixed_case
+            body = cases.get(case)
+            if body is None:
+                body = cases[case] = {}
+                if (*prefix, "cases", case) not in r.prov.exact:
+                    r.at((*prefix, "cases", case), t.place(row, "case") if case_col is not None else t.place(row))
             entries = body.setdefault(part, {})
             case_rows = rows.setdefault(case, {})
-            item_id = r.value(t, row, cells, id_col, (*prefix, "cases", case, part, "\x00"))
+            item_id = id_values[n]
             if item_id in entries:
                 r.probs.add(
                     t.place(row, id_col),
                     f"{id_col} {item_id!r} is given twice for case {case!r} (first in row {case_rows[item_id]})",
                 )
                 continue
-            path = (*prefix, "cases", case, part, item_id)
-            if comps:
-                item = {}
-                for axis, col in comps.items():
-                    v = r.value(t, row, cells, col, (*path, axis))
-                    if v is not None:
-                        item[axis] = v
+            if n_values is None:
+                item = {axis: values[n] for axis, values in comp_values.items() if values[n] is not None}
                 if not item:
                     continue  # a row with nothing reported
                 entries[item_id] = item
             else:
-                v = r.value(t, row, cells, "N", path)
-                if v is None:
+                if n_values[n] is None:
                     continue
-                entries[item_id] = v
+                entries[item_id] = n_values[n]
             case_rows[item_id] = row
         for case, case_rows in rows.items():
             r.rows_of(t, (*prefix, "cases", case, part), case_rows, comps, None if comps else "N")

@@ -9,6 +9,9 @@ afterwards (to find every other problem too) do not report it a second time.
 from __future__ import annotations
 
 import itertools
+import math
+import re
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Any
@@ -95,8 +98,12 @@ class Reader:
 
     # -- cells ------------------------------------------------------------------------------------------
 
-    def value(self, table: Table, row: int, cells: tuple[Any, ...], col: str, path: Path_) -> Any:
-        """The tree value of one cell (None when empty and optional); problems reported at the cell."""
+    def value(
+        self, table: Table, row: int, cells: tuple[Any, ...], col: str, path: Path_, *, convert: bool = True
+    ) -> Any:
+        """The tree value of one cell (None when empty and optional); problems reported at the cell.
+
+        ``convert=False`` leaves a number in its column's own unit (the caller converts the column)."""
         spec = TABLES[table.name][col]
         if col not in table.columns:
             return None
@@ -109,7 +116,7 @@ class Reader:
         try:
             if spec.kind == "number":
                 v = read_number(cell, self.decimal_comma)
-                factor = self.column_factor(table, col)
+                factor = self.column_factor(table, col) if convert else None
                 return v if factor is None else scaled(v, factor)[0]
             if spec.kind == "id":
                 return read_id(cell)
@@ -121,6 +128,37 @@ class Reader:
         except (CellError, UnitError) as exc:
             self.probs.add(table.place(row, col), str(exc), covers=[path])
             return self.placeholder(spec.kind)
+
+    def column(self, table: Table, col: str, path_of: Callable[[int], Path_]) -> list[Any]:
+        """The tree values of a whole column (None where empty and optional), row by row.
+
+        The common cells (a workbook number, a CSV number already in JSON's spelling, a plain id) take
+        a fast path; every other cell goes through :meth:`value`, which reports what is wrong with it.
+        """
+        n = len(table.rows)
+        i = table.columns.get(col)
+        if i is None:
+            return [None] * n
+        spec = TABLES[table.name][col]
+        raw = [cells[i] if i < len(cells) else None for _, cells in table.rows]
+        if spec.kind == "number":
+            fast = _fast_number_point if not self.decimal_comma else _fast_number_comma
+        elif spec.kind == "id":
+            fast = _fast_id
+        else:
+            fast = _always_slow
+        out = list(map(fast, raw))
+        for k in [k for k, v in enumerate(out) if v is _SLOW or v is _EMPTY]:
+            if out[k] is _EMPTY and not spec.required:
+                out[k] = None
+                continue
+            row, cells = table.rows[k]
+            out[k] = self.value(table, row, cells, col, path_of(k), convert=False)
+        if spec.kind == "number":
+            factor = self.column_factor(table, col)
+            if factor is not None:
+                out = [v if v is None else scaled(v, factor)[0] for v in out]
+        return out
 
     def require_columns(self, table: Table, cols: tuple[str, ...]) -> None:
         """A problem at the header row for each required column the table lacks."""
@@ -142,6 +180,54 @@ class Reader:
 
     def at(self, path: Path_, place: Place) -> None:
         self.prov.exact[path] = place
+
+
+_SLOW = object()  #: a cell the fast path leaves to :meth:`Reader.value`
+_EMPTY = object()  #: an empty cell
+_JSON_INT = re.compile(r"-?(?:0|[1-9]\d*)")
+_JSON_NUMBER = re.compile(r"-?(?:0|[1-9]\d*)(?:\.\d+)?(?:[eE][+-]?\d+)?")
+
+
+def _fast_number_point(c: Any) -> Any:
+    t = type(c)
+    if t is float:
+        if c != c or c in (math.inf, -math.inf):
+            return _SLOW
+        return int(c) if c.is_integer() and -(2**53) < c < 2**53 else repr(c).encode("ascii")
+    if t is str:
+        s = c.strip()
+        if not s:
+            return _EMPTY
+        if len(s) < 40 and _JSON_NUMBER.fullmatch(s):
+            return int(s) if _JSON_INT.fullmatch(s) else s.encode("ascii")
+        return _SLOW
+    if c is None:
+        return _EMPTY
+    if t is int:
+        return c
+    return _SLOW
+
+
+def _fast_number_comma(c: Any) -> Any:
+    if type(c) is str:
+        return _EMPTY if not c.strip() else _SLOW
+    return _fast_number_point(c)
+
+
+def _fast_id(c: Any) -> Any:
+    t = type(c)
+    if t is str:
+        s = c.strip()
+        return s if s else _EMPTY
+    if c is None:
+        return _EMPTY
+    if t is float and c.is_integer():
+        return str(int(c))
+    return _SLOW
+
+
+def _always_slow(c: Any) -> Any:
+    return _EMPTY if c is None or (type(c) is str and not c.strip()) else _SLOW
 
 
 def _finite_decimal(f: Fraction) -> bool:
