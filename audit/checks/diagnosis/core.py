@@ -100,17 +100,18 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         obs = whole[1]
         if whole[2] == 0:
             return cm.outcome(CHECK_ID, cid, findings, "explained by the case's one load at another value", summary)
-    flipped = axes.axis_reversal(model, actions, obs, ref, tol, cid)
+    flipped = axes.axis_reversal(model, actions, obs, ref, tol, cid, js if obs is cr else None)
     if flipped is not None:
         findings.append(flipped[0])
         obs = flipped[1]
         if flipped[2] == 0:
             explained.update(("displacement", "reaction"))
-    js_obs = compare_case(model, actions, obs, ref, tol)
+    js_obs = js if obs is cr else compare_case(model, actions, obs, ref, tol)
     bad_obs = {k: int(j.failed.sum()) for k, j in js_obs.items()}
+    scaled_from = obs
     before = (obs, list(findings), set(explained))
     obs = scales.scale_tests(ctx, cid, actions, obs, ref, js_obs, bad_obs, findings, explained)
-    js_left = compare_case(model, actions, obs, ref, tol)
+    js_left = js_obs if obs is scaled_from else compare_case(model, actions, obs, ref, tol)
     if any(int(j.failed.sum()) for j in js_left.values()) and any(f.code == "DX002" for f in findings):
         obs, findings, explained = before[0], list(before[1]), set(before[2])
         obs = scales.scale_tests(ctx, cid, actions, obs, ref, js_obs, bad_obs, findings, explained, plain_only=True)
