@@ -123,9 +123,15 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
 
     # ---- 2-4. a structural cause: one member, one load, one support
     base = Prediction(ref.displacements, ref.axial_forces, ref.reactions)
-    if ctx.factor is not None and _one_number(js_left) and not _at_loaded_support(model, actions, js_left):
-        # one number differs: a slip explains it, and a structural cause that changes that number alone is no
-        # simpler (base.RANK_*) unless it is a load at a support (missing or doubled: that reaction only)
+    if (
+        ctx.factor is not None
+        and model.n_dofs > fit.LARGE_DOFS
+        and _one_number(js_left)
+        and not _at_loaded_support(model, actions, js_left)
+    ):
+        # one number of a large model differs: a slip explains it, and a structural cause of a large connected
+        # model changes more than one number (a load at a support, missing or doubled, changes that reaction
+        # only: that case takes the full search); on small models the full search decides (base.RANK_*)
         solver = Superposition(ctx)
         found, _closest, _n, rows = _fit_causes(ctx, cid, obs, base, actions, solver, families=())
         if found is not None and rows is not None:
