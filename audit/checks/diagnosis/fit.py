@@ -296,8 +296,10 @@ def _pool_matrices(rows: Rows, pool: list[Cause]) -> tuple[tuple[Any, FloatArray
     ]
     jf = [i for i, c in enumerate(pool) if c.cols is None and c.fixed is not None and c.takes is None]
     a = rows.a[:, None]
-    C = np.hstack([pool[i].cols for i in ic]) / a if ic else np.zeros((len(rows), 0))  # type: ignore[misc]
-    F = np.column_stack([pool[j].fixed for j in jf]) / a if jf else np.zeros((len(rows), 0))
+    cs = [c for i in ic if (c := pool[i].cols) is not None]
+    fs = [f for j in jf if (f := pool[j].fixed) is not None]
+    C = np.hstack(cs) / a if cs else np.zeros((len(rows), 0))
+    F = np.column_stack(fs) / a if fs else np.zeros((len(rows), 0))
     return (np.asarray(ic, dtype=np.int64), C), (np.asarray(jf, dtype=np.int64), F)
 
 
