@@ -9,8 +9,10 @@ whose audit raises.  The entries come back in the order of their paths
 JSON and JUnit documents of a batch are reproducible.
 
 Workers start by ``spawn`` (a fresh interpreter: the OpenMP runtime behind
-MKL does not survive ``fork``) and each limits its BLAS/OpenMP threads to
-its share of the cores, so that ``jobs`` workers do not oversubscribe them.
+MKL does not survive ``fork``) and each uses one BLAS/OpenMP thread, as does
+``jobs=1`` (:func:`single_thread`) and a Dask cluster (:mod:`audit.cluster`):
+kernels sum in an order that depends on their thread count, and a batch's
+documents must be the same bytes however it ran.
 
 Entry status, and the batch exit code (the worst over the entries, the same
 codes as for one model): ``pass`` 0, ``fail`` 1, ``input_error`` 2
@@ -25,7 +27,7 @@ import os
 import time
 import traceback
 import xml.etree.ElementTree as ET
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from concurrent.futures import Future, ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
@@ -33,6 +35,7 @@ from multiprocessing import get_context
 from pathlib import Path
 from typing import Any
 
+from audit.exchange.positions import ModelPositions
 from audit.findings import AuditResult, Severity
 
 #: exit code of each entry status (the same as the single-model command line)
@@ -58,6 +61,8 @@ class BatchEntry:
     json_report: str | None = None  #: the per-model JSON report (audit.reporters.json_report), when rendered
     junit_report: str | None = None  #: the per-model JUnit XML (audit.reporters.junit), when rendered
     model_facts: tuple[tuple[str, Any], ...] = ()  #: (key, value) from the model summary: dimensions, joints, ...
+    #: where the model's items are written in its file (for SARIF; only when asked, audit_kwargs["sarif"])
+    positions: ModelPositions | None = None
 
     @property
     def exit_code(self) -> int:
@@ -87,6 +92,7 @@ class BatchResult:
     jobs: int
     seconds: float  #: wall time of the whole batch
     tally: dict[str, int] = field(default_factory=dict)  #: entries per status
+    cluster: str = ""  #: the Dask cluster it ran on (``local:2``, ``tcp://host:8786``), "" for local processes
 
     @property
     def verdict(self) -> str:
@@ -98,6 +104,18 @@ def _limit_threads(threads: int) -> None:
     """Cap the OpenMP/BLAS threads of this worker (read by MKL and OpenBLAS when first loaded)."""
     for name in ("OMP_NUM_THREADS", "MKL_NUM_THREADS", "OPENBLAS_NUM_THREADS"):
         os.environ[name] = str(threads)
+
+
+def single_thread() -> Any:
+    """A context in which MKL, OpenBLAS and OpenMP use one thread (threadpoolctl), as batch workers do.
+
+    Dense and sparse kernels sum in an order that depends on their thread count, so the last bits of
+    a bound differ between 1 and 2 threads; every way of running a batch therefore uses one thread
+    per model, and its documents are the same bytes.
+    """
+    from threadpoolctl import threadpool_limits
+
+    return threadpool_limits(limits=1)
 
 
 def _tolerances(kwargs: Mapping[str, Any]) -> Any:
@@ -189,6 +207,11 @@ def audit_file(model_path: str, results_path: str | None, audit_kwargs: Mapping[
             time.perf_counter() - t0,
             error=f"{type(exc).__name__}: {exc} (at {where})",
         )
+    positions = None
+    if audit_kwargs.get("sarif"):
+        from audit.exchange.positions import locate_file
+
+        positions = locate_file(model_path)
     status = "crashed" if result.crashed else result.verdict
     facts = tuple(
         (k, result.model_summary[k]) for k in ("dimensions", "joints", "members") if k in result.model_summary
@@ -203,6 +226,7 @@ def audit_file(model_path: str, results_path: str | None, audit_kwargs: Mapping[
         json_report=json_text,
         junit_report=junit_text,
         model_facts=facts,
+        positions=positions,
     )
 
 
@@ -222,6 +246,10 @@ def run_batch(
     paths: Sequence[str | os.PathLike[str] | tuple[Any, Any]],
     jobs: int = 1,
     audit_kwargs: Mapping[str, Any] | None = None,
+    *,
+    cluster: str | None = None,
+    cluster_timeout: float | None = None,
+    work: Callable[[str, str | None, Mapping[str, Any]], BatchEntry] | None = None,
 ) -> BatchResult:
     """Audit every model in ``paths``; the entries come back sorted by path.
 
@@ -236,31 +264,67 @@ def run_batch(
         Passed on to :func:`audit.engine.audit`: ``fail_on`` (a Severity or
         its name), ``only``, ``skip``, ``digits``, ``backend``, and the
         tolerances, either ``tolerances`` (a Tolerances) or ``policy`` (a
-        policy file) and ``tol`` (``NAME=VALUE`` overrides).
+        policy file) and ``tol`` (``NAME=VALUE`` overrides); ``sarif`` (True: locate the
+        items in each model file for the SARIF report).
+    cluster
+        None: local processes (``jobs``).  A Dask scheduler address or ``local:N``: the models
+        are sent to that cluster (:mod:`audit.cluster`); ``jobs`` is then not used.
+    cluster_timeout
+        Seconds allowed to reach the scheduler or start the local cluster
+        (default :data:`audit.cluster.CONNECT_TIMEOUT`).
+    work
+        The unit of work, :func:`audit_file` unless a test wraps it.
 
     Raises
     ------
     ValueError
         for a bad option in ``audit_kwargs`` (before any model is read);
         problems with a model are never raised, they are its entry's status.
+    audit.cluster.ClusterError
+        for a bad ``cluster`` value, dask missing, or a scheduler that does not answer (before any
+        model is sent).
     """
     kwargs = dict(audit_kwargs or {})
     _engine_kwargs(kwargs)  # a bad option (tolerance, severity) fails here, once, before any model is read
     pairs = _pairs(paths)
     t0 = time.perf_counter()
-    jobs = max(1, min(int(jobs), len(pairs) or 1))
-    entries = [audit_file(m, r, kwargs) for m, r in pairs] if jobs == 1 else _run_pool(pairs, jobs, kwargs)
+    task = work or audit_file
+    if cluster is not None:
+        from audit import cluster as dask_cluster
+
+        spec = dask_cluster.parse(cluster)
+        timeout = dask_cluster.CONNECT_TIMEOUT if cluster_timeout is None else cluster_timeout
+        entries = dask_cluster.run(pairs, spec, kwargs, work=task, timeout=timeout) if pairs else []
+        jobs = spec.local_workers or max(1, int(jobs))
+    else:
+        jobs = max(1, min(int(jobs), len(pairs) or 1))
+        if jobs == 1:
+            with single_thread():
+                entries = [task(m, r, kwargs) for m, r in pairs]
+        else:
+            entries = _run_pool(pairs, jobs, kwargs, task)
     tally = {s: sum(e.status == s for e in entries) for s in EXIT_CODES}
-    return BatchResult(entries=tuple(entries), jobs=jobs, seconds=time.perf_counter() - t0, tally=tally)
+    return BatchResult(
+        entries=tuple(entries),
+        jobs=jobs,
+        seconds=time.perf_counter() - t0,
+        tally=tally,
+        cluster=spec.label if cluster is not None else "",
+    )
 
 
-def _run_pool(pairs: list[tuple[str, str | None]], jobs: int, kwargs: dict[str, Any]) -> list[BatchEntry]:
-    threads = max(1, (os.cpu_count() or 1) // jobs)
+def _run_pool(
+    pairs: list[tuple[str, str | None]],
+    jobs: int,
+    kwargs: dict[str, Any],
+    task: Callable[[str, str | None, Mapping[str, Any]], BatchEntry],
+) -> list[BatchEntry]:
+    threads = 1  # as in every other way of running a batch: the same sums in the same order, the same bytes
     out: list[BatchEntry | None] = [None] * len(pairs)
     with ProcessPoolExecutor(
         max_workers=jobs, mp_context=get_context("spawn"), initializer=_limit_threads, initargs=(threads,)
     ) as pool:
-        futures: list[Future[BatchEntry]] = [pool.submit(audit_file, m, r, kwargs) for m, r in pairs]
+        futures: list[Future[BatchEntry]] = [pool.submit(task, m, r, kwargs) for m, r in pairs]
         for i, fut in enumerate(futures):
             try:
                 out[i] = fut.result()
@@ -282,7 +346,11 @@ def exit_code(batch: BatchResult) -> int:
 
 # --------------------------------------------------------------- reporting
 def render_summary(batch: BatchResult) -> str:
-    """A plain-text table, one row per model, and a tally line."""
+    """A plain-text table, one row per model, and a tally line.
+
+    No wall times and nothing of how the batch ran: the same models give the same bytes with
+    ``--jobs 1``, ``--jobs N`` or a cluster (:func:`render_timing` says how long it took).
+    """
     from tabulate import tabulate
 
     rows = []
@@ -294,18 +362,23 @@ def render_summary(batch: BatchResult) -> str:
         if e.status == "input_error" and e.problems:
             more = f" (+{len(e.problems) - 1} more)" if len(e.problems) > 1 else ""
             note = f"{_problem_text(e, 0)}{more}"
-        rows.append((e.path, e.status, size, c["errors"], c["warnings"], c["checks_not_run"], f"{e.seconds:.2f}", note))
+        rows.append((e.path, e.status, size, c["errors"], c["warnings"], c["checks_not_run"], note))
     table = tabulate(
         rows,
-        headers=["model", "status", "members", "errors", "warnings", "not run", "s", "note"],
+        headers=["model", "status", "members", "errors", "warnings", "not run", "note"],
         tablefmt="simple",
         disable_numparse=True,
     )
     tally = ", ".join(f"{n} {s.replace('_', ' ')}" for s, n in batch.tally.items() if n)
-    return (
-        f"{table}\n\nbatch: {len(batch.entries)} models ({tally or 'none'}), verdict {batch.verdict}, "
-        f"{batch.seconds:.1f} s with {batch.jobs} job(s)\n"
-    )
+    return f"{table}\n\nbatch: {len(batch.entries)} models ({tally or 'none'}), verdict {batch.verdict}\n"
+
+
+def render_timing(batch: BatchResult) -> str:
+    """How long the batch took and where it ran, and the slowest model: one line for the terminal."""
+    slowest = max(batch.entries, key=lambda e: e.seconds, default=None)
+    where = f"on the cluster {batch.cluster}" if batch.cluster else f"with {batch.jobs} job(s)"
+    tail = f"; slowest {slowest.path} {slowest.seconds:.2f} s" if slowest is not None else ""
+    return f"batch: {batch.seconds:.1f} s {where}{tail}\n"
 
 
 def _problem_text(e: BatchEntry, i: int) -> str:
@@ -374,6 +447,18 @@ def _outcome_suite(e: BatchEntry, result: AuditResult) -> ET.Element:
     return suite
 
 
+def render_batch_sarif(batch: BatchResult, min_severity: Severity = Severity.INFO) -> str:
+    """SARIF 2.1.0 for the batch: one run, the models' findings in path order; unread models as notifications."""
+    from audit.engine import registry
+    from audit.reporters import sarif
+
+    models = []
+    for e in batch.entries:
+        problems = tuple(_problem_text(e, i) for i in range(len(e.problems))) or ((e.error,) if e.error else ())
+        models.append(sarif.SarifModel(e.path, e.result, e.positions, problems if e.result is None else ()))
+    return sarif.render(models, registry(), min_severity)
+
+
 def render_batch_junit(batch: BatchResult) -> str:
     """JUnit XML: the per-model suites (from audit.reporters.junit) under one ``testsuites`` root.
 
@@ -415,6 +500,8 @@ __all__ = [
     "exit_code",
     "render_batch_json",
     "render_batch_junit",
+    "render_batch_sarif",
     "render_summary",
+    "render_timing",
     "run_batch",
 ]

@@ -80,6 +80,13 @@ def _parser() -> _Parser:
     c.add_argument("--results", metavar="PATH", help="results file for a single model (instead of a second positional)")
     c.add_argument("--json", metavar="PATH", help="write the report as JSON")
     c.add_argument("--junit", metavar="PATH", help="write JUnit XML (one test case per check and case)")
+    c.add_argument("--sarif", metavar="PATH", help="write SARIF 2.1.0 for code review (also for a batch)")
+    c.add_argument(
+        "--sarif-min",
+        choices=["info", "warning", "error"],
+        default="info",
+        help="lowest severity written to the SARIF file (default info: every finding)",
+    )
     c.add_argument("--markdown", metavar="PATH", help="write a Markdown report for a review record")
     c.add_argument("--html", metavar="PATH", help="write a self-contained HTML report with drawings")
     c.add_argument("--plot", metavar="DIR", help="write the drawings as SVG and PNG files into DIR")
@@ -100,6 +107,18 @@ def _parser() -> _Parser:
     c.add_argument("--digits", type=int, default=30, help="significant digits of the high-precision recomputation")
     c.add_argument("--solver", default="auto", choices=_SOLVERS, help="sparse solver backend (auto picks the fastest)")
     c.add_argument("--jobs", type=int, default=1, help="models audited in parallel (processes)")
+    c.add_argument(
+        "--cluster",
+        metavar="ADDRESS",
+        help="send a batch to a Dask scheduler (tcp://host:8786), or local:N to start N local worker processes",
+    )
+    c.add_argument(
+        "--cluster-timeout",
+        type=float,
+        default=20.0,
+        metavar="SECONDS",
+        help="seconds allowed to reach the scheduler or start the local cluster (default 20)",
+    )
     c.add_argument("--quiet", action="store_true", help="print only the verdict line; no progress display")
     c.add_argument("--colour", action="store_true", help="colour the terminal report")
     c.add_argument("--timings", action="store_true", help="print the time of each stage to stderr (one model only)")
@@ -207,10 +226,21 @@ def _expand_inputs(items: Sequence[str]) -> list[tuple[str, str | None]]:
     return out
 
 
-def _write_outputs(args: argparse.Namespace, result: AuditResult, model: Model, ctx_extra: dict[str, Any]) -> None:
+def _write_outputs(
+    args: argparse.Namespace, result: AuditResult, model: Model, ctx_extra: dict[str, Any], model_path: str
+) -> None:
     from audit.fileio import atomic_write_bytes, atomic_write_text
     from audit.reporters import html, json_report, junit, markdown
 
+    if args.sarif:
+        from audit.engine import registry
+        from audit.exchange.positions import locate_file
+        from audit.reporters import sarif
+
+        doc = sarif.render(
+            [sarif.SarifModel(model_path, result, locate_file(model_path))], registry(), Severity.parse(args.sarif_min)
+        )
+        atomic_write_text(args.sarif, doc)
     if args.json:
         atomic_write_text(args.json, json_report.render(result, model))
     if args.junit:
@@ -282,7 +312,7 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
     from audit.reporters import text
     from audit.sources import load_source, load_source_results
 
-    outputs = [p for p in (args.json, args.junit, args.markdown, args.html) if p]
+    outputs = [p for p in (args.json, args.junit, args.sarif, args.markdown, args.html) if p]
     inputs = [model_path] + ([results_path] if results_path else [])
     _check_outputs(outputs)
     refuse_same_path(outputs, inputs)
@@ -318,7 +348,7 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
             out.write(f"{model_path}: {result.verdict}\n")
         else:
             out.write(text.render(result, model, {"colour": args.colour}))
-        _write_outputs(args, result, model, ctx_extra)
+        _write_outputs(args, result, model, ctx_extra, model_path)
     if timings is not None:
         err.write(timings.render())
     if result.crashed:
@@ -329,6 +359,15 @@ def _check_one(args: argparse.Namespace, model_path: str, results_path: str | No
 def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.digits < 16 or args.digits > 200:
         raise _UsageError("--digits must be between 16 and 200")
+    if args.cluster is not None:  # a bad --cluster value is refused before anything is read
+        from audit.cluster import ClusterError, parse
+
+        if not args.cluster_timeout > 0:
+            raise _UsageError("--cluster-timeout must be a positive number of seconds")
+        try:
+            parse(args.cluster)
+        except ClusterError as exc:
+            raise _UsageError(f"truss-audit: {exc}") from None
     if args.map and len(args.inputs) <= 2:  # one table source (its tables named by the mapping file)
         pairs = [(args.inputs[0], args.inputs[1] if len(args.inputs) == 2 else None)]
     else:
@@ -344,7 +383,7 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             if Path(item).is_dir() and any(Path(item).glob("*.csv")):
                 read_tables(item, map_path=args.map)
         raise _UsageError("no model files found")
-    if len(pairs) == 1:
+    if len(pairs) == 1 and not args.cluster:  # with --cluster even one model goes to the cluster
         return _check_one(args, pairs[0][0], pairs[0][1], out, err)
     if args.map or args.ifc_model:
         raise _UsageError("--map and --ifc-model go with exactly one source")
@@ -352,13 +391,40 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise _UsageError("--timings takes a single model (the stages of a batch overlap)")
     from audit import batch
 
-    _check_outputs([args.json, args.junit])
+    _check_outputs([args.json, args.junit, args.sarif])
     _tolerances(args)
     if args.html or args.plot or args.markdown:
-        raise _UsageError("--html, --plot and --markdown take a single model; use --json or --junit for a batch")
-    result = batch.run_batch(
+        raise _UsageError(
+            "--html, --plot and --markdown take a single model; use --json, --junit or --sarif for a batch"
+        )
+    from audit.cluster import ClusterError
+
+    try:
+        result = _run_batch(args, pairs)
+    except ClusterError as exc:
+        raise _UsageError(f"truss-audit: {exc}") from None
+    from audit.fileio import atomic_write_text
+
+    out.write(batch.render_summary(result))
+    if not args.quiet:
+        err.write(batch.render_timing(result))
+    if args.json:
+        atomic_write_text(args.json, batch.render_batch_json(result))
+    if args.junit:
+        atomic_write_text(args.junit, batch.render_batch_junit(result))
+    if args.sarif:
+        atomic_write_text(args.sarif, batch.render_batch_sarif(result, Severity.parse(args.sarif_min)))
+    return batch.exit_code(result)
+
+
+def _run_batch(args: argparse.Namespace, pairs: list[tuple[str, str | None]]) -> Any:
+    from audit import batch
+
+    return batch.run_batch(
         pairs,
         jobs=max(1, args.jobs),
+        cluster=args.cluster,
+        cluster_timeout=args.cluster_timeout,
         audit_kwargs={
             "fail_on": args.fail_on,
             "only": tuple(args.only),
@@ -367,16 +433,9 @@ def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             "backend": args.solver,
             "policy": args.policy,
             "tol": tuple(args.tol),
+            "sarif": bool(args.sarif),
         },
     )
-    from audit.fileio import atomic_write_text
-
-    out.write(batch.render_summary(result))
-    if args.json:
-        atomic_write_text(args.json, batch.render_batch_json(result))
-    if args.junit:
-        atomic_write_text(args.junit, batch.render_batch_junit(result))
-    return batch.exit_code(result)
 
 
 def _solve(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:

@@ -19,7 +19,6 @@ from audit.checks import (
     compatibility,
     diagnosis,
     equilibrium,
-    nonlinear_causes,
     nonlinear_states,
     precision_check,
     recompute,
@@ -51,7 +50,6 @@ CHECK_MODULES: tuple[ModuleType, ...] = (
     combinations,
     precision_check,
     diagnosis,
-    nonlinear_causes,
 )
 
 

@@ -264,7 +264,7 @@ GUIDE: dict[str, tuple[str, str, str]] = {
         "the non-linear solve did not converge in 260 iterations (sign violation 0.03 of the force scale left)",
         "Report the model to the tool's maintainers; meanwhile check the case by other means.",
     ),
-    "NC101": (
+    "DX121": (
         "The reported numbers of the case are reproduced by the model solved with every member linear, and "
         "not by the model as declared: the source analysed its tension-only or compression-only members as "
         "linear. The named members carry, in the source's numbers, the sense they cannot carry.",
@@ -273,16 +273,16 @@ GUIDE: dict[str, tuple[str, str, str]] = {
         "Re-run the source with those members tension-only (or compression-only), or correct the model if "
         "they really take both senses.",
     ),
-    "NC102": (
+    "DX122": (
         "The reported numbers of the case are reproduced by the model without its self weight, and not by the "
         "model with it: the source left the members' own weight out of the case.",
         "the source left out the self weight: without it the model reproduces every reported number of 'dead'",
         "Switch on the source's self-weight load for the case (unit weight on every member, the case's "
         "factor), or remove self_weight from the model if the case should not carry it.",
     ),
-    "NC103": (
+    "DX123": (
         "The combination's reported numbers are the factored sum of its reported cases, which superposition "
-        "does not give for a model with tension-only or compression-only members (see CB103 for by how much).",
+        "does not give for a model with tension-only or compression-only members (CB103 says by how much).",
         "the combination 'ULS' was superposed: the source's numbers are the factored sum of its reported cases",
         "Have the source solve the combination as a case of its own, its factored actions applied together.",
     ),

@@ -181,6 +181,8 @@ def main(argv: list[str] | None = None) -> int:
             }
             rows.append(row)
             print(_line(row), flush=True)
+        if a.json:  # after every size, so that a run stopped early keeps what it measured
+            Path(a.json).write_text(json.dumps(raw, indent=1), encoding="utf-8")
     print()
     print(render(rows))
     print(f"load average at end {os.getloadavg()[0]:.1f}")
@@ -192,7 +194,8 @@ def main(argv: list[str] | None = None) -> int:
 def _line(r: dict) -> str:
     parts = ", ".join(f"{s} {r['stages'][s]:.2f}" for s in STAGES)
     head = f"{r['model']} ({r['tree']}, digits {r['digits']})"
-    return f"{head}: audit {r['audit']:.2f} s, floor {r['floor']:.2f} s; {parts}"
+    peaks = f"peak {r['audit_mib']:,.0f} / {r['floor_mib']:,.0f} MiB, found {r['found']}"
+    return f"{head}: audit {r['audit']:.2f} s, floor {r['floor']:.2f} s, {peaks}; {parts}"
 
 
 def render(rows: list[dict]) -> str:

@@ -149,6 +149,7 @@ def test_several_models_chosen(tmp_path: Path) -> None:
     f.write(str(path))
     read = read_ifc(path, model_name=DEMO["title"])
     assert read.model.n_members == len(DEMO["members"])
+    assert any(n.code == "SR002" and "also holds 'alternative'" in n.message for n in read.notes)
     with pytest.raises(InputError, match="alternative"):
         read_ifc(path, model_name="alternative")  # an empty model: no nodes, no members
 
@@ -213,3 +214,50 @@ def test_no_analysis_model(tmp_path: Path) -> None:
     f.write(str(path))
     with pytest.raises(InputError, match="no IfcStructuralAnalysisModel"):
         read_ifc(path)
+
+
+# ------------------------------------------------------------------ hostile files: never a traceback
+# A valid file with one entity removed or one attribute emptied (a deterministic sample of both) must be
+# read or refused with an InputError, never crash the reader (the refusal contract, common practice).
+
+_SAMPLE = 48
+
+
+@pytest.fixture(scope="module")
+def base_ifc(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    path = tmp_path_factory.mktemp("hostile") / "base.ifc"
+    write_ifc(DEMO, "mm_kN").write(str(path))
+    return path
+
+
+@pytest.mark.parametrize("mode", ["remove", "empty"])
+@pytest.mark.parametrize("k", range(_SAMPLE))
+def test_damaged_file_is_read_or_refused(base_ifc: Path, tmp_path: Path, k: int, mode: str) -> None:
+    import random
+
+    f = ifcopenshell.open(str(base_ifc))
+    entities = sorted(f, key=lambda e: e.id())
+    rng = random.Random(k)
+    entity = entities[rng.randrange(len(entities))]
+    if mode == "remove":
+        f.remove(entity)
+    else:
+        names = entity.get_attribute_names()
+        if not names:
+            pytest.skip("an entity without attributes")
+        try:
+            setattr(entity, rng.choice(names), None)
+        except Exception:
+            pytest.skip("ifcopenshell refuses to empty this attribute")
+    path = tmp_path / "damaged.ifc"
+    f.write(str(path))
+    outcome: Any
+    try:
+        outcome = read_ifc(path)
+    except InputError as err:  # refused: every problem listed with its place
+        outcome = err
+    if isinstance(outcome, InputError):
+        assert all(p.path and p.message for p in outcome.problems)
+        assert outcome.problems
+    else:
+        assert outcome.model.n_members > 0

@@ -301,10 +301,54 @@ def _energy_minimum(model, start: np.ndarray) -> np.ndarray:
     return system.T @ (res.x * scale)
 
 
-@pytest.mark.parametrize("seed", range(12))
+def random_tower(rng: np.random.Generator) -> Doc:
+    """A space tower: square storeys (posts, ring beams and one floor diagonal linear), every face braced by
+    two tension-only diagonals, pinned at the base, random loads at every upper joint."""
+    levels, a = int(rng.integers(1, 4)), 3.0
+    corners = [(0, 0), (1, 0), (1, 1), (0, 1)]
+    nodes = {
+        f"n{k}_{c}": (a * x + rng.uniform(-0.2, 0.2), a * y + rng.uniform(-0.2, 0.2), 2.5 * k)
+        for k in range(levels + 1)
+        for c, (x, y) in enumerate(corners)
+    }
+    mem: list[Doc] = []
+
+    def add(p: str, q: str, behaviour: str = "linear") -> None:
+        m = {"id": f"m{len(mem)}", "start": p, "end": q, "E": 2e8, "A": round(float(rng.uniform(2e-4, 2e-3)), 6)}
+        if behaviour != "linear":
+            m["behaviour"] = behaviour
+        mem.append(m)
+
+    for k in range(levels + 1):
+        for c in range(4):
+            if k:
+                add(f"n{k}_{c}", f"n{k}_{(c + 1) % 4}")
+                add(f"n{k - 1}_{c}", f"n{k}_{c}")
+                add(f"n{k - 1}_{c}", f"n{k}_{(c + 1) % 4}", "tension_only")
+                add(f"n{k - 1}_{(c + 1) % 4}", f"n{k}_{c}", "tension_only")
+        if k:
+            add(f"n{k}_0", f"n{k}_2")
+    doc = _model_doc({}, mem, [{"node": f"n0_{c}", "restrain": ["x", "y", "z"]} for c in range(4)], [])
+    doc["dimensions"] = 3
+    doc["nodes"] = [{"id": n, "x": round(x, 3), "y": round(y, 3), "z": z} for n, (x, y, z) in nodes.items()]
+    loads = [
+        {
+            "node": n,
+            "fx": round(float(rng.uniform(-8, 8)), 3),
+            "fy": round(float(rng.uniform(-8, 8)), 3),
+            "fz": round(float(rng.uniform(-10, 2)), 3),
+        }
+        for n in nodes
+        if not n.startswith("n0_")
+    ]
+    doc["load_cases"] = [{"id": "w", "loads": loads}]
+    return doc
+
+
+@pytest.mark.parametrize("seed", range(16))
 def test_random_models_against_energy_minimisation(seed: int) -> None:
     rng = np.random.default_rng(seed)
-    doc = random_doc(rng)
+    doc = random_doc(rng) if seed < 12 else random_tower(rng)
     model = exchange.parse_model(json.dumps(doc))
     sol = solve_model(model)
     assert sol.nonlinear is not None
@@ -330,7 +374,7 @@ def test_random_models_against_energy_minimisation(seed: int) -> None:
     assert np.all((s * e)[slack] <= 1e-9 * nscale / k[slack])  # slack members on their slack side
     active = ~slack
     assert np.allclose(N[active], (k * e)[active], rtol=1e-9, atol=1e-9 * nscale)  # compatibility
-    R = (B.T @ N - model.load_cases[0].loads.reshape(-1)).reshape(model.n_nodes, 2)
+    R = (B.T @ N - model.load_cases[0].loads.reshape(-1)).reshape(model.n_nodes, model.dim)
     free = np.ones(model.n_nodes, dtype=bool)
     free[model.restraint_node] = False
     assert np.max(np.abs(R[free])) <= 1e-9 * nscale  # equilibrium at every free joint
@@ -364,7 +408,7 @@ def test_a_linear_hand_off_fails_by_member() -> None:
     codes, verdict = _audit(doc, _solved(linear))
     assert verdict == "fail"
     assert "CP103" in codes  # a tension-only diagonal reported in compression
-    assert "NC101" in codes  # and the cause: the source treated it as linear
+    assert "DX121" in codes  # and the cause: the source treated it as linear
 
 
 def test_superposed_combination_is_wrong_by_more_than_one_percent_both_ways() -> None:
@@ -400,7 +444,7 @@ def test_self_weight_left_out_fails() -> None:
     del without["load_cases"][0]["self_weight"]
     codes, verdict = _audit(doc, _solved(without))
     assert verdict == "fail"
-    assert "NC102" in codes
+    assert "DX122" in codes
     codes, verdict = _audit(doc, _solved(doc))
     assert verdict == "pass", codes
 
@@ -415,3 +459,29 @@ def test_an_unconverged_solve_is_an_error(monkeypatch: pytest.MonkeyPatch) -> No
     codes = {f.code for f in result.findings}
     assert "NL102" in codes
     assert result.verdict == "fail"
+
+
+@pytest.mark.parametrize("delta", [-30, 30])
+def test_initial_strain_decides_the_state(delta: int) -> None:
+    """A tension-only bar beside a linear one between the same joints (FORMAT.md: slack only where it would
+    shorten once its initial strain is counted).  Cooled (δ = α·Δt·L < 0) it is pulled: with k_t, k_l the
+    two EA/L, compatibility and equilibrium N_t + N_l = 0 give N_t = −k_t·k_l·δ/(k_t + k_l) (derived here,
+    common practice); heated it would be pushed, so it goes slack and both forces are 0."""
+    doc = _model_doc(
+        {"A": (0, 0), "B": (5, 0)},
+        [
+            {"id": "lin", "start": "A", "end": "B", "E": 2e8, "A": 1e-3},
+            {"id": "rod", "start": "A", "end": "B", "E": 2e8, "A": 4e-4, "alpha": 1.2e-5, "behaviour": "tension_only"},
+        ],
+        [{"node": "A", "restrain": ["x", "y"]}, {"node": "B", "restrain": ["y"]}],
+        [{"id": "t", "temperature_changes": [{"member": "rod", "delta": delta}]}],
+    )
+    doc["units"]["temperature"] = "degC"
+    model = exchange.parse_model(json.dumps(doc))
+    case = solve_model(model).case("t")
+    assert case is not None
+    k_l, k_t = 2e8 * 1e-3 / 5, 2e8 * 4e-4 / 5
+    d = 1.2e-5 * delta * 5
+    expected = -k_t * k_l * d / (k_t + k_l) if delta < 0 else 0.0
+    assert case.axial_forces[1] == pytest.approx(expected, rel=1e-12, abs=1e-12)
+    assert case.axial_forces[0] == pytest.approx(-expected, rel=1e-12, abs=1e-12)

@@ -171,3 +171,13 @@ def test_restraint_flag_words(tmp_path: Path, flag: str) -> None:
     _edit(folder / "supports.csv", "3,1,1", f"3,{flag},1")
     code = main(["check", str(folder), "--quiet"], out=io.StringIO(), err=io.StringIO())
     assert code in (0, 1)
+
+
+def test_results_tables_name_their_place(tmp_path: Path) -> None:
+    """Results tables given after a JSON model: an unknown node and a node given twice, by place."""
+    folder = tmp_path / "results"
+    folder.mkdir()
+    (folder / "displacements.csv").write_text("case,node,ux [in],uy [in]\nP,1,0.00414,-0.0159\nP,Q,0,0\nP,1,0,0\n")
+    err = _refused(["check", str(CASE), str(folder)], tmp_path)
+    assert "displacements.csv: row 3, column \"node\": unknown node 'Q'" in err
+    assert "displacements.csv: row 4, column \"node\": node '1' is given twice for case 'P' (first in row 2)" in err

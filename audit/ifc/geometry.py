@@ -16,7 +16,7 @@ import ifcopenshell.util.placement as placement_util
 import numpy as np
 
 from .links import attr_index
-from .places import Issues
+from .places import Issues, label
 from .units import number_text
 
 _EYE = np.eye(4)
@@ -94,6 +94,9 @@ def read_joint(
         )
         return None
     coords = point.get_argument(0)
+    if not coords or len(coords) > 3:
+        issues.problem(conn, f"its vertex point {label(point)} has no usable Coordinates")
+        return None
     raw = tuple(float(c) for c in coords) + (0.0,) * (3 - len(coords))
     m = placements.matrix(conn.get_argument(pos.placement))
     if not np.all(np.isfinite(m)):

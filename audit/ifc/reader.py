@@ -138,6 +138,10 @@ def read_ifc(path: str | Path, *, model_name: str | None = None) -> SourceRead:
     file = _open(path)
     model = _pick_model(file, model_name, name)
     issues = Issues(name)
+    others = [m for m in file.by_type("IfcStructuralAnalysisModel") if m.id() != model.id()]
+    if others:
+        listed = ", ".join(repr(m.Name or f"#{m.id()}") for m in others)
+        issues.note(NOTE_ASSIGNMENT, f"this analysis model was read; the file also holds {listed}", model)
     projects = file.by_type("IfcProject")
     units = read_units(projects[0] if projects else None, issues)
     for text in units.notes:

@@ -121,6 +121,9 @@ def resolve(unit: Any, issues: Issues, depth: int = 0) -> Unit | None:
     if unit.is_a("IfcDerivedUnit"):
         factor, dim = Fraction(1), (0, 0, 0, 0)
         for el in unit.Elements or ():
+            if el.Unit is None or not isinstance(el.Exponent, int):
+                issues.problem(el, "needs a Unit and an integer Exponent")
+                return None
             inner = resolve(el.Unit, issues, depth + 1)
             if inner is None:
                 return None

@@ -60,9 +60,13 @@ def members(r: Reader, t: Table) -> list[dict[str, Any]]:
     r.require_columns(t, ("id", "start", "end"))
     present = [k for k in keys if k in t.columns or k in ("id", "start", "end")]
     cols = [r.column(t, k, _at("members", k)) for k in present]
-    out = []
-    for values in zip(*cols, strict=True):
-        out.append({k: v for k, v in zip(present, values, strict=True) if v is not None})
+    full = [k for k, col in zip(present, cols, strict=True) if None not in col]
+    if len(full) == len(present):  # no empty cell: each row is one dict of all the columns
+        out = [dict(zip(present, values, strict=True)) for values in zip(*cols, strict=True)]
+    else:
+        out = [
+            {k: v for k, v in zip(present, values, strict=True) if v is not None} for values in zip(*cols, strict=True)
+        ]
     r.rows_of(t, ("members",), {i: row for i, (row, _c) in enumerate(t.rows)}, {k: k for k in keys})
     return out
 

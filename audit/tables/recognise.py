@@ -152,9 +152,17 @@ def _recognise_columns(
                 Place(grid.where, header_row, theirs, (order, header_row, -1)),
                 f"no such column: the mapping file {mapping.name} names it for {ours}.{col}",
             )
-    rows = [
-        (grid.first_row + top + 1 + k, r) for k, r in enumerate(grid.rows[top + 1 :]) if any(not is_empty(c) for c in r)
-    ]
+    first = grid.first_row + top + 1
+    data = grid.rows[top + 1 :]
+    if grid.text_cells:  # CSV: every cell is text; a row is empty when all its cells are blank
+        kept = [k for k, r in enumerate(data) if "".join(r).strip()]
+    else:  # a workbook: an empty cell is "" (a cell holding only spaces is text, and its row is read)
+        kept = [k for k, r in enumerate(data) if r.count("") + r.count(None) != len(r)]
+    pad = width  # every row as wide as the table, so that a column is read without bounds checks
+    if len(set(map(len, data))) <= 1 and (not data or len(data[0]) >= pad):  # a workbook's rows: all as wide
+        rows = [(first + k, data[k]) for k in kept]
+    else:
+        rows = [(first + k, r if len(r) >= pad else (*r, *([""] * (pad - len(r))))) for k in kept for r in (data[k],)]
     return Table(ours, grid, order, header_row, columns, headers, units, rows)
 
 

@@ -7,6 +7,7 @@ or member given twice for one case is an error.
 
 from __future__ import annotations
 
+import operator
 from collections.abc import Callable
 from typing import Any
 
@@ -67,6 +68,13 @@ def results_document(
         comp_values = {axis: r.column(t, col, nowhere) for axis, col in comps.items()}
         n_values = r.column(t, "N", nowhere) if not comps else None
         fixed_case = default_case[0] if default_case else ""
+        case_list = case_col if case_col is not None else [fixed_case] * len(t.rows)
+        pairs = list(zip(case_list, id_values, strict=True))
+        if len(set(pairs)) == len(pairs):  # no item twice in a case: the rows go straight in
+            _straight(r, t, prefix, part, cases, rows, case_list, id_values, comp_values, n_values)
+            for case, case_rows in rows.items():
+                r.rows_of(t, (*prefix, "cases", case, part), case_rows, comps, id_col)
+            continue
         for n, (row, _cells) in enumerate(t.rows):
             case = case_col[n] if case_col is not None else fixed_case
             body = cases.get(case)
@@ -94,5 +102,48 @@ def results_document(
                 entries[item_id] = n_values[n]
             case_rows[item_id] = row
         for case, case_rows in rows.items():
-            r.rows_of(t, (*prefix, "cases", case, part), case_rows, comps, None if comps else "N")
+            r.rows_of(t, (*prefix, "cases", case, part), case_rows, comps, id_col)
     return doc
+
+
+def _straight(
+    r: Reader,
+    t: Table,
+    prefix: Path_,
+    part: str,
+    cases: dict[str, dict[str, Any]],
+    rows: dict[str, dict[str | int, int]],
+    case_list: list[Any],
+    id_values: list[Any],
+    comp_values: dict[str, list[Any]],
+    n_values: list[Any] | None,
+) -> None:
+    """The rows of a results table with no item given twice in a case, into ``cases`` (and ``rows``)."""
+    numbers = list(map(operator.itemgetter(0), t.rows))
+    for case in dict.fromkeys(case_list):
+        cases.setdefault(case, {}).setdefault(part, {})
+        rows.setdefault(case, {})
+    first: dict[Any, int] = {}
+    for k, case in enumerate(case_list):
+        first.setdefault(case, k)
+    for case, k in first.items():
+        if (*prefix, "cases", case) not in r.prov.exact:
+            row = numbers[k]
+            r.at((*prefix, "cases", case), t.place(row, "case") if "case" in t.columns else t.place(row))
+    if n_values is not None:
+        for case, item_id, v, row in zip(case_list, id_values, n_values, numbers, strict=True):
+            if v is not None:
+                cases[case][part][item_id] = v
+                rows[case][item_id] = row
+        return
+    axes = list(comp_values)
+    columns = [comp_values[a] for a in axes]
+    full = all(None not in col for col in columns)
+    for case, item_id, row, *values in zip(case_list, id_values, numbers, *columns, strict=True):
+        if full:
+            item = dict(zip(axes, values, strict=True))
+        else:
+            item = {a: v for a, v in zip(axes, values, strict=True) if v is not None}
+        if item:
+            cases[case][part][item_id] = item
+            rows[case][item_id] = row

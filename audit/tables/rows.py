@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import itertools
 import math
+import operator
 import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -140,25 +141,45 @@ class Reader:
         if i is None:
             return [None] * n
         spec = TABLES[table.name][col]
-        raw = [cells[i] if i < len(cells) else None for _, cells in table.rows]
+        raw = list(map(operator.itemgetter(i), map(operator.itemgetter(1), table.rows)))
         if spec.kind == "number":
             fast = _fast_number_point if not self.decimal_comma else _fast_number_comma
+            if set(map(type, raw)) == {float} and all(map(math.isfinite, raw)):  # workbook numbers, in C
+                whole = list(map(float.is_integer, raw))
+                if all(whole) and max(map(abs, raw)) < 2**53:
+                    return self._converted(table, col, list(map(int, raw)))
+                texts: list[Any] = list(map(str.encode, map(repr, raw)))
+                for k in itertools.compress(range(len(raw)), whole):  # integral values as integers
+                    if abs(raw[k]) < 2**53:
+                        texts[k] = int(raw[k])
+                return self._converted(table, col, texts)
         elif spec.kind == "id":
             fast = _fast_id
+            types = set(map(type, raw))
+            if types == {str}:  # text ids (CSV, or text cells): strip them all at once
+                stripped = list(map(str.strip, raw))
+                if "" not in stripped:
+                    return stripped
+            elif types == {float} and all(map(float.is_integer, raw)):  # workbook integers
+                return list(map(str, map(int, raw)))
         else:
             fast = _always_slow
         out = list(map(fast, raw))
-        for k in [k for k, v in enumerate(out) if v is _SLOW or v is _EMPTY]:
+        marked = _SLOW in out or _EMPTY in out  # identity tests, in C
+        for k in [k for k, v in enumerate(out) if v is _SLOW or v is _EMPTY] if marked else ():
             if out[k] is _EMPTY and not spec.required:
                 out[k] = None
                 continue
             row, cells = table.rows[k]
             out[k] = self.value(table, row, cells, col, path_of(k), convert=False)
-        if spec.kind == "number":
-            factor = self.column_factor(table, col)
-            if factor is not None:
-                out = [v if v is None else scaled(v, factor)[0] for v in out]
-        return out
+        return self._converted(table, col, out) if spec.kind == "number" else out
+
+    def _converted(self, table: Table, col: str, values: list[Any]) -> list[Any]:
+        """A number column in the document's units (exact decimal arithmetic; None stays None)."""
+        factor = self.column_factor(table, col)
+        if factor is None:
+            return values
+        return [v if v is None else scaled(v, factor)[0] for v in values]
 
     def require_columns(self, table: Table, cols: tuple[str, ...]) -> None:
         """A problem at the header row for each required column the table lacks."""

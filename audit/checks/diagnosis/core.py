@@ -52,7 +52,7 @@ from typing import Any
 import numpy as np
 
 from audit.checks import _common as cm
-from audit.checks.diagnosis import axes, fit, loads, members, scales, supports, table, unsolved
+from audit.checks.diagnosis import axes, fit, loads, members, nonlinear, scales, supports, table, unsolved
 from audit.checks.diagnosis import families as registry
 from audit.checks.diagnosis.base import CHECK_ID
 from audit.checks.diagnosis.block import Candidate, Evaluator, Prediction, Search, Superposition
@@ -138,7 +138,9 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
             findings += _fit_findings(ctx, cid, rows, found, ref.label)
             return cm.outcome(CHECK_ID, cid, findings, "explained by one number wrong (a slip)", summary)
     candidates: list[Candidate] = []
-    if ctx.factor is not None:
+    if ctx.factor is not None and nonlinear.applies(model):  # non-linear members, self weight
+        candidates += nonlinear.candidates(ctx, Evaluator(model, actions, obs, tol, base), cid, obs)
+    if ctx.factor is not None and not model.is_nonlinear:  # the families below predict by superposition
         solver = Superposition(ctx)
         ev = Evaluator(model, actions, obs, tol, base)
         search = Search()
@@ -213,7 +215,10 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         )
         return cm.outcome(CHECK_ID, cid, findings, "no explanation found", summary)
     # ---- 5. sets of up to three causes (every family, table mistakes and slips included)
-    found, closest, n_pool, rows = _fit_causes(ctx, cid, obs, base, actions, solver)
+    # a non-linear model: only the table mistakes (slips, swaps), which do not predict by superposition
+    fams = (table,) if model.is_nonlinear else registry.FIT_FAMILIES
+    fit_solver = Superposition(ctx) if model.is_nonlinear else solver  # the single search's, with its solves
+    found, closest, n_pool, rows = _fit_causes(ctx, cid, obs, base, actions, fit_solver, fams)
     summary.append(("fit_candidates", n_pool))
     if found is not None:
         findings += _fit_findings(ctx, cid, rows, found, ref.label)

@@ -9,9 +9,10 @@ from __future__ import annotations
 
 from types import ModuleType
 
-from audit.checks.diagnosis import axes, inclined, loads, members, scales, springs, supports, table
+from audit.checks.diagnosis import axes, inclined, loads, members, nonlinear, scales, springs, supports, table
 
 #: modules whose candidates join the multi-cause fit, in the order they are generated
 FIT_FAMILIES: tuple[ModuleType, ...] = (members, loads, supports, inclined, springs, table)
-#: every module with RULES (the axis and scale pre-steps, and core's DX001, are not fit families)
-RULE_FAMILIES: tuple[ModuleType, ...] = (scales, axes, *FIT_FAMILIES)
+#: every module with RULES (the axis and scale pre-steps, core's DX001 and the single causes of non-linear
+#: models in ``nonlinear`` are not fit families)
+RULE_FAMILIES: tuple[ModuleType, ...] = (scales, axes, *FIT_FAMILIES, nonlinear)
