@@ -90,6 +90,33 @@ class Superposition:
         out[free] = W
         return out
 
+    def member_columns(self, members: Any) -> FloatArray:
+        """(n_dofs, len(members)) ``z = K⁻¹ b`` of each member's compatibility row b: one block solve for the
+        members not solved before by this object (the single-cause search and the multi-cause fit share them)."""
+        cache: dict[int, FloatArray] = self.__dict__.setdefault("_member_z", {})
+        todo = [int(m) for m in members if int(m) not in cache]
+        if todo:
+            Z = self.displacements(self.B[todo].T.toarray())
+            for c, m in enumerate(todo):
+                cache[m] = Z[:, c].copy()
+        if len(members) == 0:
+            return np.zeros((self.T.shape[0], 0))
+        return np.column_stack([cache[int(m)] for m in members])
+
+    def dof_columns(self, dofs: Any) -> FloatArray:
+        """(n_dofs, len(dofs)) ``K⁻¹ e`` of a unit force on each global dof (restraints held): one block solve
+        for the dofs not solved before (loads, supports added and inclined supports share them)."""
+        cache: dict[int, FloatArray] = self.__dict__.setdefault("_dof_z", {})
+        todo = sorted({int(i) for i in dofs if int(i) not in cache})
+        if todo:
+            E = sp.csc_matrix((np.ones(len(todo)), (todo, np.arange(len(todo)))), shape=(self.T.shape[0], len(todo)))
+            Z = self.displacements(E)
+            for c, i in enumerate(todo):
+                cache[i] = Z[:, c].copy()
+        if len(dofs) == 0:
+            return np.zeros((self.T.shape[0], 0))
+        return np.column_stack([cache[int(i)] for i in dofs])
+
     def _free_rows(self) -> Any:
         """The global dof of each reduced dof when T is a pure selection (one 1 per row and column), else None."""
         if not hasattr(self, "_free"):

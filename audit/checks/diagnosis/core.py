@@ -52,7 +52,8 @@ from typing import Any
 import numpy as np
 
 from audit.checks import _common as cm
-from audit.checks.diagnosis import axes, families, fit, loads, members, nonlinear, scales, supports, table, unsolved
+from audit.checks.diagnosis import axes, fit, loads, members, nonlinear, scales, supports, table, unsolved
+from audit.checks.diagnosis import families as registry
 from audit.checks.diagnosis.base import CHECK_ID
 from audit.checks.diagnosis.block import Candidate, Evaluator, Prediction, Search, Superposition
 from audit.checks.equilibrium import joint_residuals
@@ -99,17 +100,18 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         obs = whole[1]
         if whole[2] == 0:
             return cm.outcome(CHECK_ID, cid, findings, "explained by the case's one load at another value", summary)
-    flipped = axes.axis_reversal(model, actions, obs, ref, tol, cid)
+    flipped = axes.axis_reversal(model, actions, obs, ref, tol, cid, js if obs is cr else None)
     if flipped is not None:
         findings.append(flipped[0])
         obs = flipped[1]
         if flipped[2] == 0:
             explained.update(("displacement", "reaction"))
-    js_obs = compare_case(model, actions, obs, ref, tol)
+    js_obs = js if obs is cr else compare_case(model, actions, obs, ref, tol)
     bad_obs = {k: int(j.failed.sum()) for k, j in js_obs.items()}
+    scaled_from = obs
     before = (obs, list(findings), set(explained))
     obs = scales.scale_tests(ctx, cid, actions, obs, ref, js_obs, bad_obs, findings, explained)
-    js_left = compare_case(model, actions, obs, ref, tol)
+    js_left = js_obs if obs is scaled_from else compare_case(model, actions, obs, ref, tol)
     if any(int(j.failed.sum()) for j in js_left.values()) and any(f.code == "DX002" for f in findings):
         obs, findings, explained = before[0], list(before[1]), set(before[2])
         obs = scales.scale_tests(ctx, cid, actions, obs, ref, js_obs, bad_obs, findings, explained, plain_only=True)
@@ -121,6 +123,20 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
 
     # ---- 2-4. a structural cause: one member, one load, one support
     base = Prediction(ref.displacements, ref.axial_forces, ref.reactions)
+    if (
+        ctx.factor is not None
+        and model.n_dofs > fit.LARGE_DOFS
+        and _one_number(js_left)
+        and not _at_loaded_support(model, actions, js_left)
+    ):
+        # one number of a large model differs: a slip explains it, and a structural cause of a large connected
+        # model changes more than one number (a load at a support, missing or doubled, changes that reaction
+        # only: that case takes the full search); on small models the full search decides (base.RANK_*)
+        solver = Superposition(ctx)
+        found, _closest, _n, rows = _fit_causes(ctx, cid, obs, base, actions, solver, families=())
+        if found is not None and rows is not None:
+            findings += _fit_findings(ctx, cid, rows, found, ref.label)
+            return cm.outcome(CHECK_ID, cid, findings, "explained by one number wrong (a slip)", summary)
     candidates: list[Candidate] = []
     if ctx.factor is not None and nonlinear.applies(model):  # non-linear members, self weight
         candidates += nonlinear.candidates(ctx, Evaluator(model, actions, obs, tol, base), cid, obs)
@@ -200,8 +216,9 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
         return cm.outcome(CHECK_ID, cid, findings, "no explanation found", summary)
     # ---- 5. sets of up to three causes (every family, table mistakes and slips included)
     # a non-linear model: only the table mistakes (slips, swaps), which do not predict by superposition
-    fams = (table,) if model.is_nonlinear else families.FIT_FAMILIES
-    found, closest, n_pool, rows = _fit_causes(ctx, cid, obs, base, actions, Superposition(ctx), fams)
+    fams = (table,) if model.is_nonlinear else registry.FIT_FAMILIES
+    fit_solver = Superposition(ctx) if model.is_nonlinear else solver  # the single search's, with its solves
+    found, closest, n_pool, rows = _fit_causes(ctx, cid, obs, base, actions, fit_solver, fams)
     summary.append(("fit_candidates", n_pool))
     if found is not None:
         findings += _fit_findings(ctx, cid, rows, found, ref.label)
@@ -213,6 +230,15 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     return cm.outcome(CHECK_ID, cid, findings, "no explanation found", summary)
 
 
+def _at_loaded_support(model: Model, actions: cm.CaseActions, js: dict[str, cm.Judgement]) -> bool:
+    """Whether the one differing number is a reaction at a loaded node."""
+    j = js["reaction"]
+    if not j.failed.any():
+        return False
+    nodes = np.flatnonzero(np.any(j.failed, axis=1))
+    return bool(np.any(actions.loads[nodes] != 0.0))
+
+
 def _fit_causes(
     ctx: Context,
     cid: str,
@@ -220,14 +246,17 @@ def _fit_causes(
     base: Prediction,
     actions: cm.CaseActions,
     solver: Superposition,
-    fams: tuple[Any, ...] = families.FIT_FAMILIES,
+    families: tuple[Any, ...] | None = None,
 ) -> tuple[fit.FitResult | None, fit.FitResult | None, int, fit.Rows | None]:
+    """The multi-cause fit over the candidates of ``families`` (default: every registered fit family; ``()``:
+    slips only)."""
     model, tol = ctx.model, ctx.tolerances
     ev = Evaluator(model, actions, obs, tol, base)
     rows = fit.Rows(ev, base, model.dim)
     if len(rows) == 0:
         return None, None, 0, None
     pb = fit.Problem(ctx, cid, obs, base, actions, rows, fit.Responses(solver, rows))
+    fams = registry.FIT_FAMILIES if families is None else families
     pool = [c for fam in fams for c in fam.candidates(pb)]
 
     def exact(causes: tuple[Any, ...], thetas: tuple[FloatArray, ...]) -> float:

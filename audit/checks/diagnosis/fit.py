@@ -40,6 +40,9 @@ SLIPS_PER_STEP = 4
 #: exact checks of the best sets before giving up
 EXACT_TRIES = 12
 KEYS = ("U", "N", "R")
+#: above this many dofs, at most LARGE_LIMIT candidates per family in the fit (see Problem.limit)
+LARGE_DOFS = 20000
+LARGE_LIMIT = 12
 
 
 class Rows:
@@ -106,6 +109,7 @@ class Rows:
         self.e = (self.y - self.b) / self.a
         self.dim = dim
         self.failing_flat = full_fail  #: per kind, the flat indices of every differing number
+        self.lookup: dict[str, dict[int, int]] = {}  #: per kind, row position of each flat index (filled lazily)
 
     def __len__(self) -> int:
         return int(self.kind.size)
@@ -212,6 +216,14 @@ class Problem:
     def solver(self) -> Superposition:
         return self.resp.solver
 
+    @property
+    def limit(self) -> int:
+        """Candidates per family: ``max_candidates``, but at most ``LARGE_LIMIT`` on a model of more than
+        ``LARGE_DOFS`` dofs (each is a solve column; the candidates come ranked by their evidence, and the
+        bounded single-cause search before the fit has tried ``max_candidates`` of each already)."""
+        n = int(self.ctx.model.n_dofs)
+        return self.tol.max_candidates if n <= LARGE_DOFS else min(self.tol.max_candidates, LARGE_LIMIT)
+
 
 @dataclass(frozen=True)
 class FitResult:
@@ -271,6 +283,70 @@ def simplicity(causes: tuple[Cause, ...], thetas: tuple[FloatArray, ...], rows: 
     return total
 
 
+#: candidates refitted in full per set extended: the best by the screening fit (and every one it says fits)
+SCREEN = 16
+SCREEN_FITTING = 48
+
+
+def _pool_matrices(rows: Rows, pool: list[Cause]) -> tuple[tuple[Any, FloatArray], tuple[Any, FloatArray]]:
+    """((pool indices, weighted columns), (pool indices, weighted fixed changes)) of the one-parameter and the
+    fixed candidates, for :func:`screen`; the others (several parameters, slips) are always refitted."""
+    ic = [
+        i for i, c in enumerate(pool) if c.cols is not None and c.n_params == 1 and c.fixed is None and c.takes is None
+    ]
+    jf = [i for i, c in enumerate(pool) if c.cols is None and c.fixed is not None and c.takes is None]
+    a = rows.a[:, None]
+    cs = [c for i in ic if (c := pool[i].cols) is not None]
+    fs = [f for j in jf if (f := pool[j].fixed) is not None]
+    C = np.hstack(cs) / a if cs else np.zeros((len(rows), 0))
+    F = np.column_stack(fs) / a if fs else np.zeros((len(rows), 0))
+    return (np.asarray(ic, dtype=np.int64), C), (np.asarray(jf, dtype=np.int64), F)
+
+
+def screen(
+    rows: Rows,
+    state: tuple[Cause, ...],
+    pool: list[Cause],
+    cols_w: tuple[Any, FloatArray],
+    fixed_w: tuple[Any, FloatArray],
+) -> list[Cause]:
+    """The candidates worth a full refit when extending ``state``: the joint least-squares fit of each
+    one-parameter or fixed candidate with the state's columns, for all of them at once (the residual
+    projected off the state's columns, ``r − c⊥ t`` with ``t = c⊥ᵀr / c⊥ᵀc⊥``), ranked by the largest
+    remaining residual; the best ``SCREEN`` and up to ``SCREEN_FITTING`` that fit, and every other candidate."""
+    _th, _score, r = fit_set(rows, state)
+    keep = np.ones(len(rows), dtype=bool)
+    for c in state:
+        if c.takes is not None:
+            keep[c.takes] = False
+    blocks = [c.cols[keep] / rows.a[keep, None] for c in state if c.cols is not None]
+    Q = np.linalg.qr(np.hstack(blocks))[0] if blocks else np.zeros((int(keep.sum()), 0))
+    rk = r[keep]
+    out: list[Cause] = []
+    picked: set[int] = set()
+    for (idx, M), fixed in ((cols_w, False), (fixed_w, True)):
+        if idx.size == 0:
+            continue
+        Mk = M[keep]
+        Mp = Mk - Q @ (Q.T @ Mk) if Q.shape[1] else Mk
+        if fixed:
+            res = rk[:, None] - Mp
+        else:
+            nn = np.einsum("ij,ij->j", Mp, Mp)
+            with np.errstate(all="ignore"):
+                t = np.where(nn > 0, (Mp.T @ rk) / nn, 0.0)
+            res = rk[:, None] - Mp * t
+        score = np.max(np.abs(res), axis=0) if res.shape[0] else np.zeros(idx.size)
+        order = np.argsort(score, kind="stable")
+        take = order[:SCREEN].tolist() + [int(j) for j in order[SCREEN:] if score[j] <= 1.0][: SCREEN_FITTING - SCREEN]
+        picked.update(int(idx[j]) for j in take)
+    screened = {int(i) for i in cols_w[0]} | {int(j) for j in fixed_w[0]}
+    for i, c in enumerate(pool):
+        if i in picked or i not in screened:
+            out.append(c)
+    return out
+
+
 def search(
     rows: Rows,
     pool: list[Cause],
@@ -283,6 +359,7 @@ def search(
     ``slip(row)`` makes the slip cause of a row; ``exact(causes, θ)`` is the largest |difference|/allowance over
     every reported number with the full-size prediction of the set.
     """
+    cols_w, fixed_w = _pool_matrices(rows, pool)
     beam: list[tuple[tuple[Cause, ...], float]] = [((), float(np.max(np.abs(rows.e)) if len(rows) else 0.0))]
     residual_of: dict[tuple[Any, ...], FloatArray] = {(): rows.e}
     closest: FitResult | None = None
@@ -294,7 +371,7 @@ def search(
             r = residual_of[tuple(c.key for c in causes)]
             order = np.argsort(-np.abs(r), kind="stable")[:SLIPS_PER_STEP]
             extra = [slip(int(i)) for i in order.tolist() if abs(r[i]) > 1.0]
-            for cand in [*pool, *extra]:
+            for cand in [*screen(rows, causes, pool, cols_w, fixed_w), *extra]:
                 if cand.key in keys:
                     continue
                 trial = tuple(sorted((*causes, cand), key=lambda c: c.key))

@@ -147,13 +147,12 @@ def candidates(pb: Problem) -> list[Cause]:
             for r in single
         ]
         single = [single[i] for i in np.argsort(-np.asarray(gap), kind="stable")]
-    single = single[: pb.tol.max_candidates]
+    single = single[: pb.limit]
     S = sp.csc_matrix(pb.ctx.system.U_p[:, single])
     K = pb.ctx.system
     Ssol = solver.displacements(-(K.K @ S + K.K_springs @ S)) + S.toarray()
     dofs = [(int(model.restraint_node[r]) * d + a) for r in single for a in range(d)]
-    E = sp.csc_matrix((np.ones(len(dofs)), (dofs, np.arange(len(dofs)))), shape=(model.n_dofs, len(dofs)))
-    Zall = solver.displacements(E)
+    Zall = solver.dof_columns(dofs)
     out: list[Cause] = []
     for i, r in enumerate(single):
         node = int(model.restraint_node[r])

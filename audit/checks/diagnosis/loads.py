@@ -274,14 +274,14 @@ def _factor_code(f: float, rtol: float) -> str:
 def candidates(pb: Problem) -> list[Cause]:
     """Each suspect loaded node's load at another factor (the whole load, and each component of it), and the
     load moved to another node: the responses of one block solve."""
-    model, obs, tol, loads = pb.model, pb.obs, pb.tol, pb.actions.loads
+    model, obs, loads = pb.model, pb.obs, pb.actions.loads
     d = model.dim
     loaded = np.flatnonzero(np.any(loads != 0.0, axis=1))
     if loaded.size == 0:
         return []
     res = joint_residuals(model, loads, obs)[0] if obs.has_axial_forces else None
     rank = _load_rank(obs, pb.base, loads, loaded, res)
-    loaded = loaded[np.argsort(rank, kind="stable")][: tol.max_candidates]
+    loaded = loaded[np.argsort(rank, kind="stable")][: pb.limit]
     # columns: each node's load vector, then each of its components when it has more than one, then moves
     specs: list[tuple[str, int, int | None, int | None]] = []  # (kind, node, axis, target)
     for n in loaded.tolist():
@@ -290,7 +290,7 @@ def candidates(pb: Problem) -> list[Cause]:
         if nz.size > 1:
             specs += [("axis", n, int(a), None) for a in nz.tolist()]
     targets = _move_targets(model, res, loads, loaded)
-    specs += [("move", a, None, b) for a in loaded.tolist() for b in targets.get(a, []) if b != a][: tol.max_candidates]
+    specs += [("move", a, None, b) for a in loaded.tolist() for b in targets.get(a, []) if b != a][: pb.limit]
     r_i: list[int] = []
     c_i: list[int] = []
     v_i: list[float] = []
@@ -308,7 +308,10 @@ def candidates(pb: Problem) -> list[Cause]:
                 c_i.append(c)
                 v_i.append(float(loads[n, a]))
     F = sp.csc_matrix((v_i, (r_i, c_i)), shape=(model.n_dofs, len(specs)))
-    X = pb.solver.displacements(F)  # one block solve
+    # the responses as combinations of unit-force responses on the loaded dofs: one block solve for the dofs
+    # not solved before (shared with the supports added and the inclined supports)
+    used = np.unique(F.indices)
+    X = pb.solver.dof_columns(used) @ F[used].toarray()
     cols = pb.resp.columns(X, F=F)
     out: list[Cause] = []
     funit = model.units.force

@@ -96,7 +96,7 @@ def member_candidates(
     c = cands.size
     cols = np.arange(c)
     B, k = solver.B, solver.k
-    Z = solver.displacements(B[cands].T.toarray())  # z = K⁻¹ b per candidate: one block solve
+    Z = solver.member_columns(cands)  # z = K⁻¹ b per candidate: one block solve (kept for the fit)
     # the unit responses (one unit of extra force t in member m): U −z, N −k∘(B z) + e_m, R masked Bᵀ N
     rows_R, at_R = reaction_rows(ev, solver)
     on_mask = solver.mask[rows_R // model.dim]
@@ -276,7 +276,7 @@ def _suspects(pb: Problem) -> Any:
     else:
         miss = np.abs(pb.solver.B @ np.nan_to_num(obs.displacements - base.U).reshape(-1))
     ranked = np.argsort(-miss, kind="stable")
-    return ranked[miss[ranked] > 0][: tol.max_candidates]
+    return ranked[miss[ranked] > 0][: pb.limit]
 
 
 def candidates(pb: Problem) -> list[Cause]:
@@ -286,7 +286,7 @@ def candidates(pb: Problem) -> list[Cause]:
     if cands.size == 0:
         return []
     B, k = solver.B, solver.k
-    Z = solver.displacements(B[cands].T.toarray())  # one block solve for every suspect
+    Z = solver.member_columns(cands)  # one block solve for the suspects not solved already
     cols = pb.resp.columns(-Z, (cands, np.arange(cands.size)))
     beta = np.asarray((B[cands] @ Z)[np.arange(cands.size), np.arange(cands.size)]).ravel()
     strain = (B @ pb.base.U.reshape(-1))[cands] - pb.actions.free_elongation[cands]

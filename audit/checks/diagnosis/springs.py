@@ -43,7 +43,7 @@ def candidates(pb: Problem) -> list[Cause]:
             [np.nanmax(np.abs(np.nan_to_num(pb.obs.reactions[n]) - pb.base.R[n])) for n in model.spring_node.tolist()]
         )
         order = np.argsort(-gap, kind="stable")
-    order = order[: pb.tol.max_candidates]
+    order = order[: pb.limit]
     rows = (model.spring_node[order][:, None] * d + np.arange(d)).ravel()
     cols_i = np.repeat(np.arange(order.size), d)
     D = sp.csc_matrix((model.spring_dir[order].ravel(), (rows, cols_i)), shape=(model.n_dofs, order.size))

@@ -254,12 +254,11 @@ def candidates(pb: Problem) -> list[Cause]:
         R = np.nan_to_num(obs.reactions)
         scale = cm.scale_of(R, pb.actions.loads)
         big = np.abs(R) > tol.floor * scale + obs.reaction_quantum
-        unsup = np.flatnonzero(~solver.mask & np.any(big, axis=1))[: tol.max_candidates]
+        unsup = np.flatnonzero(~solver.mask & np.any(big, axis=1))[: pb.limit]
         for node in unsup.tolist():
             axes = [a for a in range(d) if big[node, a]]
             dofs = [node * d + a for a in axes]
-            E = sp.csc_matrix((np.ones(len(dofs)), (dofs, np.arange(len(dofs)))), shape=(model.n_dofs, len(dofs)))
-            X = solver.displacements(E)
+            X = solver.dof_columns(dofs)
             mask = solver.mask.copy()
             mask[node] = True
             cols = pb.resp.columns(X, mask=mask)
@@ -290,7 +289,7 @@ def candidates(pb: Problem) -> list[Cause]:
         if obs.has_reactions:
             gap = np.array([np.nanmax(np.abs(np.nan_to_num(obs.reactions[n]) - pb.base.R[n])) for n in nodes])
             nodes = nodes[np.argsort(-gap, kind="stable")]
-        nodes = nodes[: tol.max_candidates]
+        nodes = nodes[: pb.limit]
         ridx = np.flatnonzero(np.isin(model.restraint_node, nodes))
         S = sp.csc_matrix(pb.ctx.system.U_p[:, ridx])
         K = pb.ctx.system

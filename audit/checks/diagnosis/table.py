@@ -84,12 +84,20 @@ def _swap_apply(key: str, a: list[int], b: list[int]) -> Any:
     return apply
 
 
+def _where(rows: Any, key: str) -> dict[int, int]:
+    """Row position of each flat index of a kind among the rows (kept on the rows object)."""
+    cache: dict[str, dict[int, int]] = rows.lookup
+    if key not in cache:
+        pos = rows.of(key)
+        cache[key] = {int(f): int(p) for f, p in zip(rows.flat[pos].tolist(), pos.tolist(), strict=True)}
+    return cache[key]
+
+
 def _fixed(pb: Problem, key: str, a: list[int], b: list[int]) -> FloatArray | None:
     """The change on the rows of exchanging the entries a[i] ↔ b[i] of one kind; None when a swapped entry is
     not among the rows or the exchange does not bring every swapped row closer."""
     rows = pb.rows
-    pos = rows.of(key)
-    where = {int(f): int(p) for f, p in zip(rows.flat[pos].tolist(), pos.tolist(), strict=True)}
+    where = _where(rows, key)
     g = np.zeros(len(rows))
     for fa, fb in zip(a, b, strict=True):
         if fa not in where or fb not in where:
