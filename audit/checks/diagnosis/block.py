@@ -250,22 +250,29 @@ class Evaluator:
         """Flat indices of the sampled quantities of a kind."""
         return self.sample[key][1]
 
-    def worst(self, pred: Prediction) -> float:
+    def allowance(self, key: str, p: Any, idx: Any, q: Any, rep_scale: float) -> Any:
+        """Allowance of the reported quantities ``idx`` of a kind against the predicted values ``p`` (flat).
+
+        ``quantum + max(relative·|p|, floor·scale)`` (:meth:`audit.tolerances.Tolerances.allowed`), the scale
+        being the kind's largest value (reactions also against the loads), or the reported one's when zero.
+        """
         a, tol = self.actions, self.tol
+        if key == "U":
+            scale = cm.first_nonzero(max(cm.scale_of(p), a.length_scale), rep_scale)
+        elif key == "R":
+            scale = cm.first_nonzero(max(cm.scale_of(p, a.loads), a.force_scale), rep_scale)
+        else:
+            scale = cm.first_nonzero(max(cm.scale_of(p), a.force_scale), rep_scale)
+        return np.maximum(q + np.maximum(tol.relative * np.abs(p[idx]), tol.floor * scale), 1e-300)
+
+    def worst(self, pred: Prediction) -> float:
         out = 0.0
         for key, idx, rep, q, rep_scale in self.parts:
             if idx.size == 0:
                 continue
             p = np.ravel(getattr(pred, key))
-            if key == "U":
-                scale = cm.first_nonzero(max(cm.scale_of(p), a.length_scale), rep_scale)
-            elif key == "R":
-                scale = cm.first_nonzero(max(cm.scale_of(p, a.loads), a.force_scale), rep_scale)
-            else:
-                scale = cm.first_nonzero(max(cm.scale_of(p), a.force_scale), rep_scale)
-            sub = p[idx]
-            allowed = q + np.maximum(tol.relative * np.abs(sub), tol.floor * scale)
-            out = max(out, float(np.max(np.abs(rep - sub) / np.maximum(allowed, 1e-300))))
+            allowed = self.allowance(key, p, idx, q, rep_scale)
+            out = max(out, float(np.max(np.abs(rep - p[idx]) / allowed)))
         return out
 
     def lower_bounds(self, sub: dict[str, FloatArray], pmax: dict[str, FloatArray]) -> FloatArray:

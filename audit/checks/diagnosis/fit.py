@@ -53,7 +53,6 @@ class Rows:
     """
 
     def __init__(self, ev: Evaluator, base: Prediction, dim: int) -> None:
-        tol, act = ev.tol, ev.actions
         kinds, flats, ys, bs, as_, full_fail = [], [], [], [], [], {}
         self.n_failing = 0
         for key, idx, rep, q, rep_scale in ev.parts:
@@ -62,14 +61,8 @@ class Rows:
                 continue
             k = KEYS.index(key)
             p = np.ravel(getattr(base, key))
-            if key == "U":
-                scale = cm.first_nonzero(max(cm.scale_of(p), act.length_scale), rep_scale)
-            elif key == "R":
-                scale = cm.first_nonzero(max(cm.scale_of(p, act.loads), act.force_scale), rep_scale)
-            else:
-                scale = cm.first_nonzero(max(cm.scale_of(p), act.force_scale), rep_scale)
             sub = p[idx]
-            allowed = np.maximum(q + np.maximum(tol.relative * np.abs(sub), tol.floor * scale), 1e-300)
+            allowed = ev.allowance(key, p, idx, q, rep_scale)
             e = (rep - sub) / allowed
             ae = np.abs(e)
             failing = np.flatnonzero(ae > 1.0)
