@@ -111,16 +111,22 @@ def test_every_load_candidate_the_screen_drops_fails_the_exact_check(kind: str) 
     src, kw, _expected = _source(kind)
     model = model_of(GRID)
     ctx = context(model, parse(model, results_text(model, {"P": src}, digits=9, **kw)))
-    cr = ctx.results.case("P")  # type: ignore[union-attr]
-    sol = ctx.solution.case("P")  # type: ignore[union-attr]
+    assert ctx.results is not None and ctx.solution is not None
+    cr, sol = ctx.results.case("P"), ctx.solution.case("P")
+    assert cr is not None and sol is not None
     base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
     actions = diagnosis.cm.case_actions(model, "P")
     assert actions is not None
     masks: list[Any] = []
     real = dcl.witness_screen
+
+    def spy(*a: Any) -> Any:
+        masks.append(real(*a))
+        return masks[-1]
+
     mp = pytest.MonkeyPatch()
     try:
-        mp.setattr(dcl, "witness_screen", lambda *a: masks.append(real(*a)) or masks[-1])
+        mp.setattr(dcl, "witness_screen", spy)
         ev = db.Evaluator(model, actions, cr, ctx.tolerances, base)
         dcl.load_candidates(ctx, ev, cr, base, db.Superposition(ctx), actions.loads)
         mp.setattr(dcl, "witness_screen", lambda ctx, ev, base, solver, F, C: np.ones(C.shape[1], dtype=bool))
