@@ -111,9 +111,11 @@ def test_every_load_candidate_the_screen_drops_fails_the_exact_check(kind: str) 
     src, kw, _expected = _source(kind)
     model = model_of(GRID)
     ctx = context(model, parse(model, results_text(model, {"P": src}, digits=9, **kw)))
-    assert ctx.results is not None and ctx.solution is not None
+    assert ctx.results is not None
+    assert ctx.solution is not None
     cr, sol = ctx.results.case("P"), ctx.solution.case("P")
-    assert cr is not None and sol is not None
+    assert cr is not None
+    assert sol is not None
     base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
     actions = diagnosis.cm.case_actions(model, "P")
     assert actions is not None
