@@ -22,6 +22,7 @@ float data the engine assembled from lie from these exact numbers.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -98,14 +99,46 @@ def _null_basis(C: list[list[int]], dim: int) -> list[list[int]] | None:
     return [n]
 
 
+def _vectors(X: ObjArray, s_idx: np.ndarray, e_idx: np.ndarray) -> tuple[ObjArray, ObjArray]:
+    """Member vectors v = X_end − X_start and squared lengths L² (exact), in int64 when the coordinates allow."""
+    m, d = s_idx.size, X.shape[1]
+    if not m:
+        return np.zeros((0, d), dtype=object), np.zeros(0, dtype=object)
+    try:
+        Xi = X.astype(np.int64)
+    except OverflowError:
+        Xi = None
+    if Xi is not None and (not Xi.size or int(np.max(np.abs(Xi))) < 2**29):  # |v| < 2^30, L² < 3·2^60: exact
+        vi = Xi[e_idx] - Xi[s_idx]
+        return vi.astype(object), (vi * vi).sum(axis=1).astype(object)
+    v = X[e_idx] - X[s_idx]
+    return v, (v * v).sum(axis=1)
+
+
+def _per_distinct(vals: ObjArray, fn: Callable[[int], int]) -> ObjArray:
+    """fn applied to each entry of an integer array, evaluated once per distinct value."""
+    try:
+        keys = vals.astype(np.int64)
+    except OverflowError:
+        keys = None
+    if keys is not None:
+        uniq, inv = np.unique(keys, return_inverse=True)
+        out = np.empty(uniq.size, dtype=object)
+        out[:] = [fn(int(x)) for x in uniq.tolist()]
+        return out[inv.reshape(-1)]
+    cache: dict[int, int] = {}
+    res = np.empty(vals.size, dtype=object)
+    res[:] = [cache[x] if x in cache else cache.setdefault(x, fn(x)) for x in map(int, vals.tolist())]
+    return res
+
+
 def exact_model(model: Model, P: int, with_temperature: bool) -> ExactModel:
     d, m = model.dim, model.n_members
     ctext, ok_c = texts_or_repr([t for row in model.coords_text for t in row], model.coords)
     X, kx = decimal_ints(ctext)
     X = X.reshape(model.n_nodes, d)
     s_idx, e_idx = model.conn[:, 0].copy(), model.conn[:, 1].copy()
-    v = X[e_idx] - X[s_idx]
-    L2 = (v * v).sum(axis=1) if m else np.zeros(0, dtype=object)
+    v, L2 = _vectors(X, s_idx, e_idx)
     Et, ok_e = texts_or_repr(model.E_text, model.E)
     At, ok_a = texts_or_repr(model.A_text, model.A)
     E, kE = decimal_ints(Et)
@@ -113,16 +146,15 @@ def exact_model(model: Model, P: int, with_temperature: bool) -> ExactModel:
     EA = E * A
     k_ea = kE + kA
     if m:
-        bmax = max(int(x).bit_length() for x in L2)
-        bmin = min(int(x).bit_length() for x in L2) - 1
+        bmax = int(L2.max()).bit_length()  # bit_length is monotone: no per-member call
+        bmin = int(L2.min()).bit_length() - 1
     else:
         bmax = bmin = 1
     Q = P + 12 + (3 * bmax + 1) // 2
     R = max(0, P + 12 - (3 * bmin) // 2)
-    isqrt = np.frompyfunc(math.isqrt, 1, 1)
     if m:
-        w = isqrt((L2 * L2 * L2) * (1 << (2 * R)))
-        g = (1 << (Q + R)) // w
+        num, sh = 1 << (Q + R), 2 * R
+        g = _per_distinct(L2, lambda x: num // math.isqrt((x * x * x) << sh))
     else:
         g = np.zeros(0, dtype=object)
     c = EA * g
@@ -132,7 +164,8 @@ def exact_model(model: Model, P: int, with_temperature: bool) -> ExactModel:
     Qh = P + 12 + (bmax + 1) // 2
     h = None
     if with_temperature and m:
-        h = isqrt((1 << (2 * Qh)) // L2)
+        num_h = 1 << (2 * Qh)
+        h = _per_distinct(L2, lambda x: math.isqrt(num_h // x))
     # restrained nodes and their integer bases
     dtext, ok_d = texts_or_repr([t for row in model.restraint_dir_text for t in row], model.restraint_dir)
     Craw, _kd = decimal_ints(dtext)
@@ -148,8 +181,8 @@ def exact_model(model: Model, P: int, with_temperature: bool) -> ExactModel:
             raise ValueError(f"restraint directions at node {model.node_ids[node]} are zero")
         inclined[j] = any(sum(1 for x in r if x != 0) > 1 for r in rows)
         for col, b in enumerate(basis):
-            g = math.gcd(*b)
-            Z[j, :, col] = [x // g for x in b]  # axis restraints then give unit columns
+            gz = math.gcd(*b)
+            Z[j, :, col] = [x // gz for x in b]  # axis restraints then give unit columns
     Zf, zshift = _scaled_columns(Z)
     Zpinv = np.zeros_like(Zf)
     Ginv = np.zeros_like(Zf)

@@ -93,6 +93,9 @@ def ints_to_float(ints: ObjArray, e10: int, e2: int) -> FloatArray:
     a = np.asarray(ints, dtype=object)
     if a.size == 0:
         return np.zeros(a.shape)
+    fast = _small_ints_to_float(a, e10, e2)
+    if fast is not None:
+        return fast
     shift = 0
     if e10 > 0:
         a = a * 10**e10
@@ -105,6 +108,40 @@ def ints_to_float(ints: ObjArray, e10: int, e2: int) -> FloatArray:
     except OverflowError:
         return _huge_ints_to_float(a, e2 - shift)
     return np.ldexp(f, e2 - shift)
+
+
+#: 10^k is a float64 exactly for 0 <= k <= 22 (5^22 < 2^53)
+_EXACT_POW10 = 22
+
+
+def _small_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
+    """The fast path of :func:`ints_to_float` when |e10| <= 22 and (e10 = 0 or every |int| <= 2^53), else None.
+
+    Then each int and 10^|e10| are float64 exactly, and one IEEE multiplication or division is correctly
+    rounded (IEEE 754-2019, §4.3); the scaling by 2^e2 is exact unless the result leaves the normal range,
+    which sends the call down the exact path.
+    """
+    if abs(e10) > _EXACT_POW10:
+        return None
+    try:
+        f = a.astype(np.float64)  # correctly rounded (PyLong_AsDouble)
+    except OverflowError:
+        return None
+    if e10 and not float(np.max(np.abs(f))) <= 2.0**53:  # |f| <= 2^53 iff |int| <= 2^53 (monotone rounding)
+        return None
+    if e10 > 0:
+        f = f * 10.0**e10
+    elif e10 < 0:
+        f = f / 10.0 ** (-e10)
+    if e2:
+        nz = f[f != 0.0]
+        if nz.size:
+            lo = float(np.min(np.abs(nz)))
+            hi = float(np.max(np.abs(nz)))
+            if math.frexp(lo)[1] + e2 < -1000 or math.frexp(hi)[1] + e2 > 1000:
+                return None
+        f = np.ldexp(f, e2)
+    return f
 
 
 def _huge_ints_to_float(a: ObjArray, e2: int) -> FloatArray:

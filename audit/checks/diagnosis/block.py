@@ -16,6 +16,7 @@ import scipy.sparse as sp
 
 from audit import stiffness
 from audit.checks import _common as cm
+from audit.checks.equilibrium import joint_residuals
 from audit.context import Context
 from audit.findings import Location
 from audit.model import CaseResults, FloatArray, Model
@@ -56,6 +57,8 @@ SAMPLE = 2048
 SLACK = 1e-9
 #: members per chunk when a block of responses is reduced over all members (bounds the memory held)
 CHUNK = 1 << 16
+#: right-hand sides per call of the factor's solve (its copies of the block are bounded by this many columns)
+SOLVE_COLUMNS = 16
 
 
 class Superposition:
@@ -79,15 +82,21 @@ class Superposition:
         """(n_dofs, c) displacements under global load columns F (dense or sparse; restraints held): one
         block solve.  Without inclined supports T only selects the free dofs, and is applied as a selection."""
         free = self._free_rows()
-        if free is None:
-            rhs = self.T.T @ F
-            rhs = rhs.toarray() if sp.issparse(rhs) else np.asarray(rhs)
-            W = self.factor.solve(rhs).reshape(rhs.shape)
-            return np.asarray(self.T @ W)
-        rhs = sp.csr_matrix(F)[free].toarray() if sp.issparse(F) else np.asarray(F)[free]
-        W = self.factor.solve(rhs).reshape(rhs.shape)
-        out = np.zeros((self.T.shape[0], *rhs.shape[1:]))
-        out[free] = W
+        if F.ndim == 1:
+            return self.displacements(F.reshape(-1, 1)).ravel()
+        if sp.issparse(F):
+            F = sp.csc_matrix(F)
+        out = np.zeros((self.T.shape[0], F.shape[1]))
+        # SOLVE_COLUMNS right-hand sides at a time: the solve's own copies of the block stay small
+        for c0 in range(0, F.shape[1], SOLVE_COLUMNS):
+            Fc = F[:, c0 : c0 + SOLVE_COLUMNS]
+            if free is None:
+                rhs = self.T.T @ Fc
+                rhs = rhs.toarray() if sp.issparse(rhs) else np.asarray(rhs)
+                out[:, c0 : c0 + rhs.shape[1]] = self.T @ self.factor.solve(rhs).reshape(rhs.shape)
+            else:
+                rhs = Fc[free].toarray() if sp.issparse(Fc) else np.asarray(Fc)[free]
+                out[free, c0 : c0 + rhs.shape[1]] = self.factor.solve(rhs).reshape(rhs.shape)
         return out
 
     def member_columns(self, members: Any) -> FloatArray:
@@ -98,7 +107,7 @@ class Superposition:
         if todo:
             Z = self.displacements(self.B[todo].T.toarray())
             for c, m in enumerate(todo):
-                cache[m] = Z[:, c].copy()
+                cache[m] = Z[:, c]  # a view: Z is held by its columns, never written
         if len(members) == 0:
             return np.zeros((self.T.shape[0], 0))
         return np.column_stack([cache[int(m)] for m in members])
@@ -112,10 +121,19 @@ class Superposition:
             E = sp.csc_matrix((np.ones(len(todo)), (todo, np.arange(len(todo)))), shape=(self.T.shape[0], len(todo)))
             Z = self.displacements(E)
             for c, i in enumerate(todo):
-                cache[i] = Z[:, c].copy()
+                cache[i] = Z[:, c]  # a view: Z is held by its columns, never written
         if len(dofs) == 0:
             return np.zeros((self.T.shape[0], 0))
         return np.column_stack([cache[int(i)] for i in dofs])
+
+    def joint_residuals(self, loads: FloatArray, obs: CaseResults) -> tuple[FloatArray, FloatArray, FloatArray]:
+        """:func:`audit.checks.equilibrium.joint_residuals` of the reported results, once per (loads, results)
+        pair (the balance test and the load candidates of both searches read the same)."""
+        memo: dict[tuple[int, int], Any] = self.__dict__.setdefault("_residuals", {})
+        key = (id(loads), id(obs))
+        if key not in memo:
+            memo[key] = (loads, obs, joint_residuals(self.model, loads, obs))  # the pair is held: ids stay valid
+        return memo[key][2]
 
     def _free_rows(self) -> Any:
         """The global dof of each reduced dof when T is a pure selection (one 1 per row and column), else None."""
@@ -311,9 +329,11 @@ class Search:
     closest figure, so the selection made from the list is the same as with every figure exact.
     """
 
-    def __init__(self) -> None:
+    def __init__(self, closest: bool = True) -> None:
         #: candidates whose lower bound is ≤ 1 are always evaluated exactly, so a cause that explains the data
-        #: is never missed; this caps only the search for the closest non-fitting candidate quoted by DX001
+        #: is never missed; ``closest`` False skips the search for the closest non-fitting candidate (the
+        #: diagnosis quotes the multi-cause fit's closest set in DX001, never the single search's)
+        self.closest = closest
         self.good_found = False
         self.best = np.inf
         self.exact_evaluations = 0
@@ -328,7 +348,7 @@ class Search:
         self.exact_evaluations += int(done.sum())
         if np.any(worst[done] <= 1.0):
             self.good_found = True
-        if not self.good_found:
+        if not self.good_found and self.closest:
             block_best = float(np.min(worst[done])) if done.any() else np.inf
             closest_left = CLOSEST_EVALUATIONS
             for j in np.lexsort((np.arange(worst.size), worst)).tolist():
@@ -343,6 +363,67 @@ class Search:
                 block_best = min(block_best, float(worst[j]))
             self.best = min(self.best, block_best)
         return worst, done
+
+
+#: differing numbers of each kind (the worst) used as witnesses by :func:`witness_screen`
+WITNESSES = 6
+#: the rounding margin of a witness, per unit of the response's size bound, at least this (see witness_screen)
+WITNESS_ROUNDING = 1e-8
+
+
+def witness_screen(
+    ctx: Context, ev: Evaluator, base: Prediction, solver: Superposition, F: Any, C: FloatArray
+) -> cm.BoolArray:
+    """(c,) False for each candidate ``base + response(F) @ C[:, j]`` (F load columns, restraints held) that a
+    few differing numbers prove cannot explain the results (its exact figure exceeds 1); True otherwise.
+
+    The witnesses are the worst differing member forces and displacements of the base comparison.  The change
+    of each under every load column comes from the symmetry of the restrained flexibility G = T K_r⁻¹ Tᵀ, as
+    one solve per witness instead of one per column: ``ΔN_m = k_m (G b_m)ᵀ F`` (``G b_m`` is the member's
+    column of :meth:`Superposition.member_columns`, shared with the fit) and ``ΔU_i = (G e_i)ᵀ F``.
+
+    The allowance of a witness depends on the kind's largest predicted value S, not known here; but when
+    every number of the kind is reported, a candidate that fits has ``|p| ≤ |r| + q + rel·|p| + floor·S`` at
+    every one, so ``S ≤ S⁺ = max(action scale, (max|r| + max q) / (1 − rel − floor))`` (and the reported scale,
+    used when S is 0, is below S⁺ too).  A witness with ``|r − p| − δ > q + max(rel·(|p| + δ), floor·S⁺)``
+    therefore proves that the candidate does not fit.  δ bounds the difference between the witness's value
+    and the one the candidate's own solve gives (both forward errors are about cond·eps of the response's
+    size, ``|G w|∞ ‖F‖₁``): ``δ = max(WITNESS_ROUNDING, 10⁴·eps·cond) · |G w|∞ ‖F‖₁`` summed over the columns.
+    Without a finite condition estimate, or a kind not wholly reported, nothing is dropped on that ground.
+    """
+    c = C.shape[1]
+    alive = np.ones(c, dtype=bool)
+    cond = float(getattr(ctx, "condition", np.nan))
+    if c == 0 or not np.isfinite(cond) or F.shape[1] == 0:
+        return alive
+    eta = max(WITNESS_ROUNDING, 1e4 * np.finfo(np.float64).eps * cond)
+    tol, model = ev.tol, solver.model
+    Fd = sp.csc_matrix(F)
+    f1 = np.asarray(abs(Fd).sum(axis=0)).ravel()  # ‖F_col‖₁
+    aC = np.abs(C)
+    for key, idx, rep, q, _rep_scale in ev.parts:
+        total = model.n_members if key == "N" else model.n_nodes * model.dim
+        if key == "R" or idx.size == 0 or idx.size != total:
+            continue
+        p = np.ravel(getattr(base, key))
+        e = np.abs(rep - p[idx]) / ev.allowance(key, p, idx, q, _rep_scale)
+        failing = np.flatnonzero(e > 1.0)
+        if failing.size == 0:
+            continue
+        pos = failing[np.argsort(-e[failing], kind="stable")][:WITNESSES]
+        flat = idx[pos]
+        W = solver.member_columns(flat) * solver.k[flat][None, :] if key == "N" else solver.dof_columns(flat)
+        D = np.asarray(Fd.T @ W).T @ C  # (witnesses, c): each candidate's change at each witness
+        delta = eta * (colmax(W)[:, None] * f1[None, :]) @ aC
+        pw = p[flat][:, None] + D
+        room = 1.0 - tol.relative - tol.floor
+        if room <= 0.0:
+            continue
+        s_up = max(ev.action_scale[key], (float(np.max(np.abs(rep))) + float(np.max(q))) / room)
+        allowed = q[pos][:, None] + np.maximum(tol.relative * (np.abs(pw) + delta), tol.floor * s_up)
+        proved = np.abs(rep[pos][:, None] - pw) - delta > allowed * (1.0 + SLACK)
+        alive &= ~np.any(proved, axis=0)
+    return alive
 
 
 def reaction_rows(ev: Evaluator, solver: Superposition, extra_nodes: Any = ()) -> tuple[Any, Any]:

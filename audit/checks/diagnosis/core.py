@@ -56,7 +56,6 @@ from audit.checks.diagnosis import axes, fit, loads, members, nonlinear, scales,
 from audit.checks.diagnosis import families as registry
 from audit.checks.diagnosis.base import CHECK_ID
 from audit.checks.diagnosis.block import Candidate, Evaluator, Prediction, Search, Superposition
-from audit.checks.equilibrium import joint_residuals
 from audit.checks.recompute import compare_case
 from audit.context import Context
 from audit.findings import CheckOutcome, Finding, Location, Severity
@@ -143,8 +142,8 @@ def _diagnose(ctx: Context, cid: str, cr: CaseResults) -> CheckOutcome:
     if ctx.factor is not None and not model.is_nonlinear:  # the families below predict by superposition
         solver = Superposition(ctx)
         ev = Evaluator(model, actions, obs, tol, base)
-        search = Search()
-        balanced, residual = _balanced(model, actions, obs, tol)
+        search = Search(closest=False)  # DX001 quotes the fit's closest set, not the single search's
+        balanced, residual = _balanced(model, actions, obs, tol, solver)
         summary.append(("reported_forces_balance_the_loads", balanced))
         if balanced is not False:
             candidates += members.member_candidates(ctx, ev, obs, base, solver, actions.free_elongation, search)
@@ -380,7 +379,7 @@ def _near_failing(model: Model, js: dict[str, cm.Judgement], bad: dict[str, int]
 
 
 def _balanced(
-    model: Model, actions: cm.CaseActions, obs: CaseResults, tol: Any
+    model: Model, actions: cm.CaseActions, obs: CaseResults, tol: Any, solver: Superposition
 ) -> tuple[bool | None, FloatArray | None]:
     """Whether the reported forces and reactions balance the model's loads at every joint checked (None
     when no member force is reported), and the joint residuals (None likewise).
@@ -392,6 +391,6 @@ def _balanced(
     """
     if not obs.has_axial_forces:
         return None, None
-    res, q, mag = joint_residuals(model, actions.loads, obs)
+    res, q, mag = solver.joint_residuals(actions.loads, obs)
     scale = max(cm.scale_of(actions.loads, obs.axial_forces, cm.effective_reactions(model, obs)), actions.force_scale)
     return not bool(cm.judge(res, np.zeros_like(res), q, scale, tol, magnitude=mag).failed.any()), res

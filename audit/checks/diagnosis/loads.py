@@ -17,6 +17,7 @@ from scipy.sparse.csgraph import shortest_path
 from audit.checks import _common as cm
 from audit.checks.diagnosis.base import CHECK_ID, RANK_STRUCTURAL, Cause
 from audit.checks.diagnosis.block import (
+    SOLVE_COLUMNS,
     Candidate,
     Evaluator,
     Prediction,
@@ -24,9 +25,9 @@ from audit.checks.diagnosis.block import (
     Superposition,
     colmax,
     reaction_rows,
+    witness_screen,
 )
 from audit.checks.diagnosis.fit import Problem
-from audit.checks.equilibrium import joint_residuals
 from audit.context import Context
 from audit.findings import Location, Severity
 from audit.model import AXES, CaseResults, FloatArray, Model
@@ -54,8 +55,9 @@ def load_candidates(
     ``near()`` the member hops from each node to them).  ``residual``: the joint residuals of the reported
     forces when already computed.
 
-    One block solve for the loads and one for the moved loads; the candidates are bounded together and only
-    those that may explain the results (or be the closest) are evaluated one by one (:class:`Search`).
+    The candidates that a few differing numbers prove wrong are dropped first (:func:`witness_screen`); the
+    responses of the others are solved in blocks of at most ``SOLVE_COLUMNS``, bounded, and only those that
+    may explain the results (or be the closest) are evaluated one by one (:class:`Search`).
     """
     search = search if search is not None else Search()
     model, tol = ctx.model, ctx.tolerances
@@ -66,7 +68,7 @@ def load_candidates(
     if not obs.has_axial_forces:
         res = np.full(loads.shape, np.nan)
     else:
-        res = residual if residual is not None else joint_residuals(model, loads, obs)[0]
+        res = residual if residual is not None else solver.joint_residuals(loads, obs)[0]
     rank = _load_rank(obs, base, loads, loaded, res if obs.has_axial_forces else None)
     hops = near() if near is not None and loaded.size > tol.max_candidates else None
     if hops is not None:
@@ -87,18 +89,7 @@ def load_candidates(
     c_i = [c for c in range(len(at_node)) for _a in range(d)]
     v_i = [float(loads[n, a]) for n in of_node for a in range(d)]
     FG = sp.csc_matrix((v_i, (r_i, c_i)), shape=(model.n_dofs, len(at_node)))
-    # responses of the loads (columns 0..nl-1) and of the moved loads (the rest): one block solve
-    dU = solver.displacements(FG)
     nl = loaded.size
-    rows_R, at_R = reaction_rows(ev, solver)
-    on_mask = solver.mask[rows_R // d]
-    nmax, btn = _force_bounds(ev, solver, dU, rows_R)
-    respR = np.where(on_mask[:, None], btn - FG[rows_R].toarray(), 0.0)
-    rU, rN = ev.rows("U"), ev.rows("N")
-    sU = dU[rU]
-    sN = solver.k[rN, None] * (solver.B[rN] @ dU)
-    sR = respR[at_R]
-    umax, rmax = colmax(dU), colmax(respR)
     index = {node: c for c, node in enumerate(loaded.tolist())}
     # candidate j: base + Σ coef · response column; (column, coef) lists in the order of the findings list
     combos: list[list[tuple[int, float]]] = []
@@ -109,25 +100,58 @@ def load_candidates(
     for j, terms in enumerate(combos):
         for col, coef in terms:
             C[col, j] += coef
+    worst = np.full(len(combos), np.inf)  # a candidate left out below is proved not to explain the results
+    done = np.zeros(len(combos), dtype=bool)
+    alive = witness_screen(ctx, ev, base, solver, FG, C)
+    # the responses of the load columns (0..nl-1) and of the moved loads (the rest) are solved a few groups at
+    # a time, a group being one loaded node's load with its moves (every candidate then lies in one group):
+    # each group's candidates are bounded and, where the bound allows, evaluated before the next is solved
+    group_of = np.array([index[a] for a, _b in pairs], dtype=np.int64)
+    groups: list[list[int]] = []
+    for c in range(nl):
+        js = [2 * c, 2 * c + 1, *(2 * nl + np.flatnonzero(group_of == c)).tolist()]
+        js = [j for j in js if alive[j]]
+        if js:
+            groups.append(js)
+    rows_R, at_R = reaction_rows(ev, solver)
+    on_mask = solver.mask[rows_R // d]
+    rU, rN = ev.rows("U"), ev.rows("N")
     bU, bN, bR = base.U.reshape(-1), base.N, base.R.reshape(-1)
-    sub = {"U": bU[rU, None] + sU @ C, "N": bN[rN, None] + sN @ C, "R": bR[rows_R[at_R], None] + sR @ C}
-    aC = np.abs(C)
-    pmax = {"U": ev.base_max["U"] + umax @ aC, "R": ev.base_max["R"] + rmax @ aC}
-    if nmax is not None:
-        pmax["N"] = ev.base_max["N"] + nmax @ aC
-    lbs = ev.lower_bounds(sub, pmax)
+    chunk: list[int] = []
+    for g, js in enumerate(groups):
+        chunk += js
+        if g + 1 < len(groups) and len(_columns(C, chunk)) + len(_columns(C, groups[g + 1])) <= SOLVE_COLUMNS:
+            continue
+        cols = _columns(C, chunk)
+        Fc = FG[:, cols]
+        dU = solver.displacements(Fc)
+        Cc = C[np.ix_(cols, chunk)]
+        nmax, btn = _force_bounds(ev, solver, dU, rows_R)
+        respR = np.where(on_mask[:, None], btn - Fc[rows_R].toarray(), 0.0)
+        sub = {
+            "U": bU[rU, None] + dU[rU] @ Cc,
+            "N": bN[rN, None] + (solver.k[rN, None] * (solver.B[rN] @ dU)) @ Cc,
+            "R": bR[rows_R[at_R], None] + respR[at_R] @ Cc,
+        }
+        aC = np.abs(Cc)
+        pmax = {"U": ev.base_max["U"] + colmax(dU) @ aC, "R": ev.base_max["R"] + colmax(respR) @ aC}
+        if nmax is not None:
+            pmax["N"] = ev.base_max["N"] + nmax @ aC
+        local = {col: i for i, col in enumerate(cols)}
 
-    def resp(col: int) -> Prediction:
-        u = dU[:, col]
-        return solver.response(u, solver.k * (solver.B @ u), FG[:, [col]].toarray().ravel())
+        def exact(
+            i: int, dU: FloatArray = dU, Fc: Any = Fc, local: dict[int, int] = local, js: list[int] = chunk
+        ) -> float:
+            pred = base
+            for col, coef in combos[js[i]]:
+                u = dU[:, local[col]]
+                f = Fc[:, [local[col]]].toarray().ravel()
+                pred = pred.plus(solver.response(u, solver.k * (solver.B @ u), f), coef)
+            return ev.worst(pred)
 
-    def exact(j: int) -> float:
-        pred = base
-        for col, coef in combos[j]:
-            pred = pred.plus(resp(col), coef)
-        return ev.worst(pred)
-
-    worst, done = search.settle(lbs, exact)
+        w, dn = search.settle(ev.lower_bounds(sub, pmax), exact)
+        worst[chunk], done[chunk] = w, dn
+        chunk = []
 
     def residual_at(node: int) -> tuple[str, list[float]]:
         return ("joint_residual", [float(v) for v in res[node]])
@@ -175,6 +199,11 @@ def load_candidates(
         )
         j += 1
     return out
+
+
+def _columns(C: FloatArray, combos: list[int]) -> list[int]:
+    """The response columns the candidates ``combos`` combine."""
+    return np.flatnonzero(np.any(C[:, combos] != 0.0, axis=1)).tolist()
 
 
 def _force_bounds(ev: Evaluator, solver: Superposition, X: FloatArray, rows_R: Any) -> tuple[Any, FloatArray]:
@@ -279,7 +308,7 @@ def candidates(pb: Problem) -> list[Cause]:
     loaded = np.flatnonzero(np.any(loads != 0.0, axis=1))
     if loaded.size == 0:
         return []
-    res = joint_residuals(model, loads, obs)[0] if obs.has_axial_forces else None
+    res = pb.solver.joint_residuals(loads, obs)[0] if obs.has_axial_forces else None
     rank = _load_rank(obs, pb.base, loads, loaded, res)
     loaded = loaded[np.argsort(rank, kind="stable")][: pb.limit]
     # columns: each node's load vector, then each of its components when it has more than one, then moves
@@ -319,7 +348,7 @@ def candidates(pb: Problem) -> list[Cause]:
         if not np.any(cols[:, c]):
             continue
         nid = model.node_ids[n]
-        x = X[:, c].copy()
+        x = X[:, c]  # a view: X is never written
         f = F[:, [c]].toarray().ravel()
 
         def apply(pred: Prediction, th: FloatArray, x: FloatArray = x, f: FloatArray = f) -> Prediction:
