@@ -286,7 +286,7 @@ class PardisoFactor:
         B = b.reshape(self.n, -1)
         if B.shape[1] < _BLOCK_RHS:
             # one column at a time: measured faster than PARDISO's block solve for few columns
-            X = np.empty(B.shape, order="F")
+            X: np.ndarray = np.empty(B.shape, order="F")
             for j in range(B.shape[1]):
                 x = self._h.call(33, np.asfortranarray(B[:, j : j + 1]))
                 assert x is not None
@@ -294,8 +294,9 @@ class PardisoFactor:
         else:
             # PARDISO reads and writes column-major blocks: a C-ordered block is copied once on the
             # way in; the solution is returned column-major as PARDISO wrote it (no copy on the way out)
-            X = self._h.call(33, np.asfortranarray(B))
-            assert X is not None
+            xb = self._h.call(33, np.asfortranarray(B))
+            assert xb is not None
+            X = xb
         return X.reshape(b.shape) if b.ndim == 2 else X[:, 0]
 
 
