@@ -180,7 +180,7 @@ class _PardisoHandle:
         n = self.A.shape[0] if phase >= 0 else 0
         nrhs = 1 if b is None else b.shape[1]
         rhs = np.zeros(0) if b is None else b
-        x = np.zeros(0) if b is None else np.zeros_like(b, order="F")
+        x = np.zeros(0) if b is None else np.empty(b.shape, order="F")  # PARDISO writes every entry
         err = ctypes.c_int32(0)
         self.entry(
             self.pt.ctypes.data_as(ctypes.POINTER(ctypes.c_int64)),
@@ -286,15 +286,18 @@ class PardisoFactor:
         B = b.reshape(self.n, -1)
         if B.shape[1] < _BLOCK_RHS:
             # one column at a time: measured faster than PARDISO's block solve for few columns
-            X = np.empty(B.shape)
+            X: np.ndarray = np.empty(B.shape, order="F")
             for j in range(B.shape[1]):
                 x = self._h.call(33, np.asfortranarray(B[:, j : j + 1]))
                 assert x is not None
                 X[:, j] = x[:, 0]
-            return X.reshape(b.shape)
-        x = self._h.call(33, np.asfortranarray(B))
-        assert x is not None
-        return np.ascontiguousarray(x).reshape(b.shape)
+        else:
+            # PARDISO reads and writes column-major blocks: a C-ordered block is copied once on the
+            # way in; the solution is returned column-major as PARDISO wrote it (no copy on the way out)
+            xb = self._h.call(33, np.asfortranarray(B))
+            assert xb is not None
+            X = xb
+        return X.reshape(b.shape) if b.ndim == 2 else X[:, 0]
 
 
 # ------------------------------------------------------------------ cholmod

@@ -349,10 +349,10 @@ def candidates(pb: Problem) -> list[Cause]:
             continue
         nid = model.node_ids[n]
         x = X[:, c]  # a view: X is never written
-        f = F[:, [c]].toarray().ravel()
 
-        def apply(pred: Prediction, th: FloatArray, x: FloatArray = x, f: FloatArray = f) -> Prediction:
-            return pred.plus(pb.resp.full(x, f=f), float(th[0]))
+        def apply(pred: Prediction, th: FloatArray, x: FloatArray = x, c: int = c) -> Prediction:
+            # the load column made dense only when a set with this cause is checked in full
+            return pred.plus(pb.resp.full(x, f=F[:, [c]].toarray().ravel()), float(th[0]))
 
         if kind == "move":
             assert tgt is not None

@@ -295,7 +295,7 @@ def candidates(pb: Problem) -> list[Cause]:
     for c, m in enumerate(cands.tolist()):
         if not np.any(cols[:, c]):
             continue
-        z = Z[:, c].copy()
+        z = Z[:, c]  # a view: Z is never written
 
         def unit(m: int = m, z: FloatArray = z) -> Prediction:
             if m not in cache:

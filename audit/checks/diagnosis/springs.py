@@ -57,7 +57,7 @@ def candidates(pb: Problem) -> list[Cause]:
             continue
         ks = float(model.spring_k[s])
         nid = model.node_ids[int(model.spring_node[s])]
-        z = Z[:, c].copy()
+        z = Z[:, c]  # a view: Z is never written
 
         def ratio(th: FloatArray, c: int = c, ks: float = ks) -> float:
             t = float(th[0])
