@@ -94,6 +94,7 @@ def test_steering_residual_within_its_bound_of_the_exact_rational_residual(monke
     got = st.evaluate(u)
     assert got is not None
     rf, bound = got
+    assert bound is not None
     # the exact residual in sympy rationals: rhs − Σ_e c_e (v_e·Δu_e) v_e at both ends, in residual units
     a10 = ex.kx - ex.k_ea - sc.ku - sc.e10f
     b2 = -ex.Q - sc.S - sc.e2f

@@ -207,7 +207,7 @@ def refine(
         if steer is not None and not (near or stall or k == maxit) and nxt > 10 * floor:
             if udd is None:
                 udd = steer.to_dd(u)
-            fast = steer.evaluate(u, udd) if udd is not None else None
+            fast = steer.evaluate(u, udd, with_bound=False) if udd is not None else None
             if fast is None:
                 steer = None
         last_exact = fast is None

@@ -148,7 +148,9 @@ class SteeringResidual:
         except OutOfRangeError:
             return None
 
-    def _terms(self, udd: tuple[FloatArray, FloatArray]) -> tuple[FloatArray, FloatArray, FloatArray]:
+    def _terms(
+        self, udd: tuple[FloatArray, FloatArray], with_bound: bool = True
+    ) -> tuple[FloatArray, FloatArray, FloatArray | None]:
         """Members' forces F = c·(v·Δu)·v in double-double (m, dim, ns) and |F| summed terms for the bound."""
         ex = self.ex
         uh, ul = udd
@@ -163,12 +165,14 @@ class SteeringResidual:
         qh = x + y
         ql = y - (qh - x)
         fh, fl = dd_mul_f(qh[:, None, :], ql[:, None, :], v)
+        if not with_bound:
+            return fh, fl, None
         absq = np.abs(self.c_hi[:, None]) * (np.abs(v) * (np.abs(uh[ex.e_idx]) + np.abs(uh[ex.s_idx]))).sum(axis=1)
         return fh, fl, absq[:, None, :] * np.abs(v)
 
     def evaluate(
-        self, u: ObjArray, udd: tuple[FloatArray, FloatArray] | None = None
-    ) -> tuple[FloatArray, FloatArray] | None:
+        self, u: ObjArray, udd: tuple[FloatArray, FloatArray] | None = None, with_bound: bool = True
+    ) -> tuple[FloatArray, FloatArray | None] | None:
         """(r rounded to float64, bound on |r − r_exact|) per dof in residual units, or None out of range.
 
         ``udd`` is u in double-double when the caller keeps it (else it is converted from the exact u); the
@@ -186,7 +190,7 @@ class SteeringResidual:
                 udd = self.to_dd(u)
                 if udd is None:
                     return None
-            fh, fl, fabs = self._terms(udd)
+            fh, fl, fabs = self._terms(udd, with_bound)
             nn, d, ns = rh.shape
             gh = np.zeros((self.depth, nn, d, ns))
             gl = np.zeros((self.depth, nn, d, ns))
@@ -195,16 +199,17 @@ class SteeringResidual:
             gl[self.rank, self.node] = sg * fl[self.member]
             for j in range(self.depth):
                 rh, rl = dd_add(rh, rl, gh[j], gl[j])
-            ga = np.zeros((self.depth, nn, d, ns))
-            ga[self.rank, self.node] = fabs[self.member]
-            tot = tot + ga.sum(axis=0)
+            if fabs is not None:  # refinement steps need only the residual: the bound is for the tests and callers
+                ga = np.zeros((self.depth, nn, d, ns))
+                ga[self.rank, self.node] = fabs[self.member]
+                tot = tot + ga.sum(axis=0)
             nz = np.abs(self.c_hi[self.c_hi != 0])
             if nz.size and float(nz.min()) < 2.0**-800:
                 return None
-        top = float(np.max(tot, initial=0.0))
-        if not top < 2.0**800:
+        top = float(np.max(np.abs(rh), initial=0.0)) if not with_bound else float(np.max(tot, initial=0.0))
+        if not top < 2.0**800 or not np.all(np.isfinite(rh)):
             return None
-        return rh + rl, tot * ((self.depth + 16) * 2.0**-102)
+        return rh + rl, (tot * ((self.depth + 16) * 2.0**-102) if with_bound else None)
 
     def floor(self, cond: float) -> float:
         """Relative error of the iterate below which the steering residual no longer steers (estimate)."""
