@@ -10,8 +10,9 @@ Per load case and combination ("state"):
 2. **Mixed-precision iterative refinement**
    (:mod:`~audit.precision.refinement`; Higham, *Accuracy and Stability of
    Numerical Algorithms*, 2nd ed., §12.1): the engine's float64 factor steers
-   the corrections, the residual is exact
-   (:mod:`~audit.precision.residual`).
+   the corrections, the final residual (the proof's) is exact
+   (:mod:`~audit.precision.residual`), earlier ones may be double-double
+   (:mod:`~audit.precision.steering`).
 3. **Proof** (:mod:`~audit.precision.bounds`, Rump 2006 via
    :mod:`audit.certify`): a certified lower bound on the smallest eigenvalue
    of the exact restrained stiffness turns the exact residual into bounds on

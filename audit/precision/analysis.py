@@ -94,7 +94,7 @@ def analyse(
     up = prescribed_part(model, system, ex, st, sc)
     start = start_iterate(ex, sc, U0, up)
     timings.append(("setup", time.perf_counter() - t0))
-    ref = refine(ex, system, factor, sc, rhs, rhs_err, start, digits) if ns else None
+    ref = refine(ex, system, factor, sc, rhs, rhs_err, start, digits, cond_scaled) if ns else None
     timings.append(("refinement_residuals", ref.seconds_residual if ref else 0.0))
     timings.append(("refinement_solves", ref.seconds_solve if ref else 0.0))
     cert = certify.certify_restrained(

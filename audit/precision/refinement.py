@@ -1,9 +1,15 @@
-"""Mixed-precision iterative refinement with exact residuals (Higham 2002, §12.1 and Algorithm 12.1).
+"""Mixed-precision iterative refinement with an exact final residual (Higham 2002, §12.1 and Algorithm 12.1).
 
 N. J. Higham, *Accuracy and Stability of Numerical Algorithms*, 2nd ed.
 (SIAM 2002): the float64 factor of ``K_r`` that the engine already has is
-re-used for every correction; the residual is exact
-(:func:`audit.precision.residual.exact_residual`).  The iterate stays on the
+re-used for every correction; the residual the proof uses, and every residual
+from the first one at which the refinement could stop on, is exact
+(:func:`audit.precision.residual.exact_residual`).  Earlier residuals only
+steer: they are taken in double-double (:mod:`audit.precision.steering`)
+while the next correction (the last one times the observed contraction) is
+more than 10× that arithmetic's worst-case floor ``cond·(D+16)·2^-102``;
+whatever they give, the stopping rule below is judged again on corrections
+from exact residuals before the refinement stops.  The iterate stays on the
 integer grid of the u scale and meets every restraint exactly (``u = u_p +
 Z w``); the float factor's orthonormal basis only steers the corrections.
 
@@ -34,6 +40,7 @@ from .exact_model import ExactModel
 from .exact_numbers import ObjArray, ints_to_float, round_scaled, scale_float
 from .residual import Scales, apply_K_err, exact_residual, reduce_residual
 from .states import States
+from .steering import OutOfRangeError, SteeringResidual, dd_add, ints_to_dd
 
 
 @dataclass(frozen=True)
@@ -101,6 +108,8 @@ class Refined:
     stalled: bool
     seconds_residual: float
     seconds_solve: float
+    steering_residuals: int = 0  #: residuals taken in double-double (steering only)
+    exact_residuals: int = 0  #: exact residuals (the last one is the proof's)
 
 
 def _relative_step(du: FloatArray, step: ObjArray, u: ObjArray, conv: float | None) -> float:
@@ -116,6 +125,34 @@ def _relative_step(du: FloatArray, step: ObjArray, u: ObjArray, conv: float | No
     return float(Fraction(top, base))
 
 
+def _reduce_float(ex: ExactModel, rf: FloatArray) -> FloatArray:
+    """The float residual for the correction, axis-aligned restraints projected out (as in ``reduce_residual``)."""
+    eff = rf.copy()
+    if ex.rn.size:
+        rwf = np.einsum("nac,nas->ncs", ex.Zf, rf[ex.rn])
+        eff[ex.rn] = np.einsum("nac,ncs->nas", ex.Zf, np.einsum("ncb,nbs->ncs", ex.Ginv, rwf))
+    return eff
+
+
+def _advance_dd(
+    ex: ExactModel, udd: tuple[FloatArray, FloatArray] | None, du: FloatArray, conv: float | None, u: ObjArray
+) -> tuple[FloatArray, FloatArray] | None:
+    """u + step in double-double: the step is the float ``rint(du·conv)`` exactly (``round_scaled``'s float path).
+
+    Restrained nodes are taken again from the exact u (``u_p + Z w``); None (the caller converts the exact u)
+    when the step was rounded on the exact path.
+    """
+    if udd is None or conv is None or not float(np.max(np.abs(du), initial=0.0)) * conv < 2.0**1000:
+        return None
+    hi, lo = dd_add(udd[0], udd[1], np.rint(du * conv), np.zeros(du.shape))
+    if ex.rn.size:
+        try:
+            hi[ex.rn], lo[ex.rn] = ints_to_dd(u[ex.rn], 0)
+        except OutOfRangeError:
+            return None
+    return hi, lo
+
+
 def refine(
     ex: ExactModel,
     system: System,
@@ -125,8 +162,14 @@ def refine(
     rhs_err: FloatArray,
     it: Iterate,
     digits: int,
+    cond: float = float("nan"),
 ) -> Refined:
-    """Mixed-precision iterative refinement (Higham 2002, §12.1): float64 corrections, exact residuals."""
+    """Mixed-precision iterative refinement (Higham 2002, §12.1): float64 corrections, exact final residual.
+
+    With ``cond`` (the scaled condition estimate) the residuals that only steer are taken in double-double
+    (:mod:`~audit.precision.steering`) while the correction they give stays far above that arithmetic's
+    floor; every residual from the first one at which the refinement could stop on is exact.
+    """
     nn, d, ns = it.u.shape
     c10, c2 = sc.e10f + sc.ku, sc.e2f + sc.Y + sc.S  # correction (residual units) -> u ints
     conv_mp = float(sc.unit * mpmath.mpf(10) ** sc.ku * mpmath.mpf(2) ** sc.S)
@@ -134,25 +177,56 @@ def refine(
     target = 10.0 ** -(digits + 3)
     history: list[float] = []
     t_res = t_sol = 0.0
+    steered = exact_count = 0
     maxit = 4 + digits // 5
     converged = stalled = False
     u, w = it.u, it.w
+    steer = None
+    if math.isfinite(cond) and SteeringResidual.supported(ex):
+        try:
+            steer = SteeringResidual(ex, sc, rhs)
+        except OutOfRangeError:  # numbers beyond the float range: exact residuals only
+            steer = None
+    floor = steer.floor(cond) if steer is not None else 1.0
+    udd: tuple[FloatArray, FloatArray] | None = None  # u in double-double, while steering
+    last_exact = True  # the last correction came from an exact residual
     k = 0
     for k in range(maxit + 1):
-        t0 = time.perf_counter()
-        r, rm, mag, eff, err, p = exact_residual(ex, sc, rhs, rhs_err, u, with_err=False)
-        t_res += time.perf_counter() - t0
         # stop when the last correction, or the error predicted after it (size × observed contraction), is
-        # below the target; the residual just computed is the one the proof uses
+        # below the target; the residual computed then is exact, and it is the one the proof uses
         predicted = history[-1] * min(1.0, history[-1] / history[-2]) if len(history) >= 2 else np.inf
-        if history and (history[-1] <= target or predicted <= target):
-            converged = True
-            break
-        if len(history) >= 3 and history[-1] > 0.5 * history[-2] and history[-2] > 0.5 * history[-3]:
-            stalled = True
-            break
-        if k == maxit:
-            break
+        # only a correction from an exact residual may stop the refinement (whatever the steering ones said)
+        may_stop = bool(history) and last_exact and (history[-1] <= target or predicted <= target)
+        stall = len(history) >= 3 and history[-1] > 0.5 * history[-2] and history[-2] > 0.5 * history[-3]
+        # the next correction (about the error of u: last size × contraction, the first one squared) must stay
+        # 10× above the double-double floor (a worst-case bound) for a steering residual to give it
+        nxt = predicted if len(history) >= 2 else (history[-1] ** 2 if history else 1.0)
+        t0 = time.perf_counter()
+        fast = None
+        near = bool(history) and (history[-1] <= target or predicted <= target)
+        if steer is not None and not (near or stall or k == maxit) and nxt > 10 * floor:
+            if udd is None:
+                udd = steer.to_dd(u)
+            fast = steer.evaluate(u, udd) if udd is not None else None
+            if fast is None:
+                steer = None
+        last_exact = fast is None
+        if fast is not None:
+            eff = _reduce_float(ex, fast[0])
+            steered += 1
+        else:
+            r, rm, mag, eff, err, p = exact_residual(ex, sc, rhs, rhs_err, u, with_err=False)
+            exact_count += 1
+        t_res += time.perf_counter() - t0
+        if fast is None:
+            if may_stop:
+                converged = True
+                break
+            if stall:
+                stalled = True
+                break
+            if k == maxit:
+                break
         t0 = time.perf_counter()
         b = system.T.T @ eff.reshape(nn * d, ns)
         dw = np.asarray(factor.solve(b if ns > 1 else b[:, 0])).reshape(-1, ns)
@@ -161,6 +235,10 @@ def refine(
         step = round_scaled(du, c10, c2, conv)
         size = _relative_step(du, step, u, conv)
         history.append(size)
+        if size == 0.0 and fast is not None:  # judged again from the exact residual of the same u
+            history.pop()
+            steer = None
+            continue
         if size == 0.0:
             converged = True
             break
@@ -169,6 +247,7 @@ def refine(
             dwn = np.einsum("ncb,nbs->ncs", ex.Zpinv, du[ex.rn])
             w = w + round_scaled(dwn, c10, c2, conv)
         u = assemble_u(ex, u_free, w, it.up)
+        udd = _advance_dd(ex, udd, du, conv, u) if steer is not None else None
     t0 = time.perf_counter()
     err = err + (apply_K_err(ex, sc, p) if ex.s_idx.size else 0.0)
     mag, _eff, _rf, err = reduce_residual(ex, sc, r, err)
@@ -186,4 +265,6 @@ def refine(
         stalled=stalled,
         seconds_residual=t_res,
         seconds_solve=t_sol,
+        steering_residuals=steered,
+        exact_residuals=exact_count,
     )

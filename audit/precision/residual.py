@@ -10,12 +10,21 @@ directions (``r_w = Zᵀ r``, ``‖P_V r‖² = r_wᵀ (ZᵀZ)⁻¹ r_w``).
 
 Why exact integers (measured on this machine, 2 cores): the member-wise
 residual in Python ints vectorised over members costs 1.2–3 µs per member and
-evaluation (2D grid, 10⁵–10⁶ members), 1–4× the vectorised double-double
-figure in SOLVERS.md (47–90 ns per stored nonzero, 16 stored entries per 2D
-member), but it works at any number of digits with an exact error term,
-whereas double-double saturates at 30–31 digits (22–24 when
-ill-conditioned), at or below the 30 digits asked for.  mpmath (12–60 µs per
-member) and Fraction (5 µs per nonzero) were slower still.
+evaluation (2D grid, 10⁵–10⁶ members), but it works at any number of digits
+with an exact error term, whereas double-double saturates at 30–31 digits
+(22–24 when ill-conditioned), at or below the 30 digits asked for.  mpmath
+(12–60 µs per member) and Fraction (5 µs per nonzero) were slower still.  So
+the residual the proof uses is always this exact one; the refinement's
+earlier residuals, which only steer, are taken in double-double with
+error-free transformations (:mod:`~audit.precision.steering`; Ogita, Rump &
+Oishi, SIAM J. Sci. Comput. 26(6), 2005) while the correction they give stays
+far above that arithmetic's floor.  Measured on the 2D grid of 4.8·10⁵
+members at 30 digits (load 3–4 on 2 cores): 0.40–0.66 s per exact evaluation
+against 0.28–0.38 s per steering one (half of that the conversion of the
+exact iterate); 2 of the 4 evaluations steer.  Summing member ends by
+``np.add.reduceat`` over a node-sorted order was measured slower than
+``np.add.at`` on object arrays (0.62 s against 0.52 s for 9.6·10⁵ entries)
+and is not used.
 
 The residual's floats are in units of :attr:`Scales.unit` (a power of ten
 times a power of two chosen from the forces); the bounds are evaluated in
