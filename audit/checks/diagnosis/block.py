@@ -106,8 +106,11 @@ class Superposition:
         todo = [int(m) for m in members if int(m) not in cache]
         if todo:
             Z = self.displacements(self.B[todo].T.toarray())
+            Z.setflags(write=False)  # the cache holds views of it
             for c, m in enumerate(todo):
-                cache[m] = Z[:, c]  # a view: Z is held by its columns, never written
+                cache[m] = Z[:, c]
+            if todo == [int(m) for m in members]:
+                return Z  # every column new, in the order asked: no stacked copy
         if len(members) == 0:
             return np.zeros((self.T.shape[0], 0))
         return np.column_stack([cache[int(m)] for m in members])
@@ -120,8 +123,11 @@ class Superposition:
         if todo:
             E = sp.csc_matrix((np.ones(len(todo)), (todo, np.arange(len(todo)))), shape=(self.T.shape[0], len(todo)))
             Z = self.displacements(E)
+            Z.setflags(write=False)  # the cache holds views of it
             for c, i in enumerate(todo):
-                cache[i] = Z[:, c]  # a view: Z is held by its columns, never written
+                cache[i] = Z[:, c]
+            if todo == [int(i) for i in dofs]:
+                return Z  # every column new, in the order asked: no stacked copy
         if len(dofs) == 0:
             return np.zeros((self.T.shape[0], 0))
         return np.column_stack([cache[int(i)] for i in dofs])
