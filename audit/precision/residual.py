@@ -20,8 +20,10 @@ error-free transformations (:mod:`~audit.precision.steering`; Ogita, Rump &
 Oishi, SIAM J. Sci. Comput. 26(6), 2005) while the correction they give stays
 far above that arithmetic's floor.  Measured on the 2D grid of 4.8·10⁵
 members at 30 digits (load 3–4 on 2 cores): 0.40–0.66 s per exact evaluation
-against 0.28–0.38 s per steering one (half of that the conversion of the
-exact iterate); 2 of the 4 evaluations steer.  Summing member ends by
+against 0.27–0.38 s per steering one, whose set-up (the coefficients and
+loads in double-double, the node order) costs another 0.2–0.36 s once; 2 of
+the 4 evaluations steer, so the residual stage went only from 2.0–2.8 s to
+1.7–2.6 s there (in-process, alternating runs).  Summing member ends by
 ``np.add.reduceat`` over a node-sorted order was measured slower than
 ``np.add.at`` on object arrays (0.62 s against 0.52 s for 9.6·10⁵ entries)
 and is not used.
