@@ -233,10 +233,11 @@ def float_to_ints(y: FloatArray) -> ObjArray:
     small = np.abs(y) < 2.0**62
     out[small] = y[small].astype(np.int64).astype(object)
     if (~small).any():
-        m, e = np.frexp(y[~small])
-        mi = (m * 2.0**53).astype(np.int64).astype(object)
-        out[~small] = mi * (np.ones(mi.shape, dtype=object) << (e - 53).astype(object))
+        out[~small] = _INT(y[~small])  # int(float) is exact for an integer-valued float
     return out
+
+
+_INT = np.frompyfunc(int, 1, 1)
 
 
 def float_exact_to_scale(x: FloatArray, k10: int, s2: int) -> tuple[ObjArray, FloatArray]:
