@@ -41,6 +41,14 @@ def _index_ids(items: list[dict[str, Any]], key: str, what: str, base: Path_, pr
     return ids, index
 
 
+def _given(items: list[dict[str, Any]], key: str, cols: _Columns) -> list[Any]:
+    """The value of ``key`` in each item, None where it has none."""
+    if not cols.any_has(items, key):
+        return [None] * len(items)
+    column = cols.column(items, key)
+    return [None if v is _MISSING else v for v in column] if _MISSING in column else column
+
+
 def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs: _Problems, cols: _Columns):
     """E, A, alpha per member (inline wins over the material or section) with texts."""
     materials: dict[str, dict[str, Any]] = doc.get("materials", {})
@@ -60,12 +68,7 @@ def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs
     values: dict[str, list[Any]] = {}
     inline: dict[str, list[int]] = {}
     has_alpha = [True] * n
-    refs_of = {
-        ref_key: [None if r is _MISSING else r for r in cols.column(members, ref_key)]
-        if cols.any_has(members, ref_key)
-        else [None] * n
-        for ref_key in ("material", "section")
-    }
+    refs_of = {ref_key: _given(members, ref_key, cols) for ref_key in ("material", "section")}
     for ref_key, table in (("material", materials), ("section", sections)):
         refs = refs_of[ref_key]
         if not set(refs) <= set(table) | {None}:
@@ -74,11 +77,7 @@ def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs
     sources = (("E", "material", materials), ("A", "section", sections), ("alpha", "material", materials))
     for key, ref_key, table in sources:
         refs = refs_of[ref_key]
-        direct = (
-            [None if v is _MISSING else v for v in cols.column(members, key)]
-            if cols.any_has(members, key)
-            else [None] * n
-        )
+        direct = _given(members, key, cols)
         from_table: dict[str | None, Any] = {name: entry.get(key) for name, entry in table.items()}
         vals: list[Any] = list(map(from_table.get, refs))
         inline[key] = []

@@ -112,6 +112,10 @@ def _read_json(data: bytes | bytearray | memoryview | str, name: str) -> _Json:
 #: a key followed by white space before its colon: the key count below would miss it
 _SPACED_KEY = re.compile(rb'"[ \t\r\n]+:')
 
+#: the compiled decoder is tried first; False makes every read take the standard-library path (the reference
+#: implementation, which tests compare the fast path against)
+USE_COMPILED = True
+
 
 @functools.cache
 def _fast_decoder() -> Any:
@@ -136,20 +140,23 @@ def _fast_tree(data: bytes | str) -> tuple[Any] | None:
     Anything msgspec refuses (syntax, ``NaN``, invalid UTF-8, too deep, an integer
     out of range) goes the other way too, which then finds the place and words it.
     """
-    decoder = _fast_decoder()
+    decoder = _fast_decoder() if USE_COMPILED else None
     if decoder is None:
         return None
     try:
         raw = data.encode("utf-8") if isinstance(data, str) else data
     except UnicodeEncodeError:
         return None
-    if b"\\" in raw or _SPACED_KEY.search(raw):
+    if b"\\" in raw:
+        return None
+    key_ends = raw.count(b'":')
+    if raw.count(b":") != key_ends and _SPACED_KEY.search(raw):  # only a ":" after no quote can be one
         return None
     try:
         doc = decoder.decode(raw)
     except Exception:  # any refusal: the standard-library path reports it with its place
         return None
-    if _count_keys(doc) != raw.count(b'":'):
+    if _count_keys(doc) != key_ends:
         return None
     return (doc,)
 

@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 
 from ..model import AXES, FORCE_UNITS, LENGTH_UNITS, CaseResults, Model, Results, SourceStiffness, Units
-from .bulk import _MISSING
+from .bulk import _MISSING, _uniform_columns
 from .problems import Path_, _Problems
 from .values import _floats, _id, _quanta
 
@@ -68,22 +68,32 @@ def _results(body: dict[str, Any], frame: _Frame, base: Path_, probs: _Problems)
             names = list(table)
             comps = list(table.values())
             idx = list(map(frame.node_index.get, names))
-            if None in idx:
+            all_known = None not in idx
+            if not all_known:
                 for i in (i for i, v in enumerate(idx) if v is None):
                     probs.add((*cp, key, names[i]), f"unknown node {names[i]!r}")
+            uniform = _uniform_columns(comps) if comps else None
             for axis, a in enumerate(AXES):
                 if axis >= dim:
-                    for i in (i for i, c in enumerate(comps) if a in c):
-                        probs.add((*cp, key, names[i], a), f"axis {a!r} does not exist in a {dim}D model")
+                    if uniform is None or a in uniform:
+                        for i in (i for i, c in enumerate(comps) if a in c):
+                            probs.add((*cp, key, names[i], a), f"axis {a!r} does not exist in a {dim}D model")
                     continue
-                column = [c.get(a, _MISSING) for c in comps]
-                sel = [i for i, v in enumerate(column) if v is not _MISSING and idx[i] is not None]
-                if not sel:
-                    continue
-                raw = [column[i] for i in sel]
-                rows = np.array([idx[i] for i in sel], dtype=np.int64)
+                if uniform is not None and all_known:  # every entry has this axis or none has
+                    if a not in uniform:
+                        continue
+                    raw = uniform[a]
+                    rows = np.array(idx, dtype=np.int64)
+                    sel: range | list[int] = range(len(comps))
+                else:
+                    column = [c.get(a, _MISSING) for c in comps]
+                    sel = [i for i, v in enumerate(column) if v is not _MISSING and idx[i] is not None]
+                    if not sel:
+                        continue
+                    raw = [column[i] for i in sel]
+                    rows = np.array([idx[i] for i in sel], dtype=np.int64)
 
-                def where(j: int, sel: list[int] = sel, a: str = a) -> Path_:
+                def where(j: int, sel: range | list[int] = sel, a: str = a) -> Path_:
                     return (*cp, key, names[sel[j]], a)
 
                 values[rows, axis] = _floats(raw, where, probs) * factor
@@ -97,18 +107,18 @@ def _results(body: dict[str, Any], frame: _Frame, base: Path_, probs: _Problems)
         table_f: dict[str, Any] = case.get("axial_forces", {})
         names_f = list(table_f)
         idx_f = list(map(frame.member_index.get, names_f))
+        raw_f = list(table_f.values())
+        keep: range | list[int] = range(len(names_f))
         if None in idx_f:
             for i in (i for i, v in enumerate(idx_f) if v is None):
                 probs.add((*cp, "axial_forces", names_f[i]), f"unknown member {names_f[i]!r}")
             keep = [i for i, v in enumerate(idx_f) if v is not None]
-        else:
-            keep = list(range(len(names_f)))
+            raw_f = [raw_f[i] for i in keep]
+            idx_f = [idx_f[i] for i in keep]
         if keep:
-            raw_all = list(table_f.values())
-            raw_f = [raw_all[i] for i in keep]
-            rows_f = np.array([idx_f[i] for i in keep], dtype=np.int64)
+            rows_f = np.array(idx_f, dtype=np.int64)
 
-            def where_f(j: int, keep: list[int] = keep, cp: Path_ = cp, names_f: list[str] = names_f) -> Path_:
+            def where_f(j: int, keep: range | list[int] = keep, cp: Path_ = cp, names_f: list[str] = names_f) -> Path_:
                 return (*cp, "axial_forces", names_f[keep[j]])
 
             forces[rows_f] = _floats(raw_f, where_f, probs) * (ff * axial_sign)

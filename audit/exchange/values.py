@@ -174,7 +174,12 @@ def _quantum_text(text: str) -> float:
 def _floats(values: list[Any], where: Callable[[int], Path_ | None], probs: _Problems) -> FloatArray:
     """Convert numbers as read to float64, reporting any that are not finite (where ``where`` gives a path)."""
     try:
-        arr = np.fromiter(map(float, values), dtype=np.float64, count=len(values))
+        distinct = set(values) if len(values) > 64 else None
+        if distinct is not None and len(distinct) * 4 < len(values):  # mostly repeats: each converted once
+            table = dict(zip(distinct, map(float, distinct), strict=True))
+            arr = np.fromiter(map(table.__getitem__, values), dtype=np.float64, count=len(values))
+        else:
+            arr = np.fromiter(map(float, values), dtype=np.float64, count=len(values))
     except OverflowError:
         arr = np.array([_float(v) for v in values], dtype=np.float64)
     bad = np.flatnonzero(~np.isfinite(arr))
