@@ -43,12 +43,13 @@ REFERENCE_CASES = sorted((ROOT / "reference_cases").rglob("*.json"))
 
 @contextlib.contextmanager
 def _compiled(on: bool) -> Iterator[None]:
-    was = jsonread.USE_COMPILED
-    jsonread.USE_COMPILED = on
+    """The fast path (compiled decoder, results maps scanned at any size) or the standard-library path."""
+    was = jsonread.USE_COMPILED, jsonread.SCAN_MIN_BYTES
+    jsonread.USE_COMPILED, jsonread.SCAN_MIN_BYTES = on, 0
     try:
         yield
     finally:
-        jsonread.USE_COMPILED = was
+        jsonread.USE_COMPILED, jsonread.SCAN_MIN_BYTES = was
 
 
 def _outcome(read: Any, *args: Any) -> tuple[str, Any]:
@@ -158,6 +159,8 @@ def test_generated_models(tmp_path: Path, kind: str, members: int, digits: int) 
     _generate().write(str(path), kind, members, digits=digits)
     raw = path.read_bytes()
     assert jsonread._fast_tree(raw) is not None  # the fast path is taken, so the comparison means something
+    with _compiled(True):
+        assert jsonread._read_json(raw, "m.json", "model").scanned
     outcome = _assert_equivalent(raw)
     assert outcome[0] == "value"
     assert outcome[1].results is not None

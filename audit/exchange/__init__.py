@@ -75,6 +75,7 @@ from .bulk import _bulk_support_displacement as _bulk_support_displacement
 from .bulk import _bulk_supports as _bulk_supports
 from .bulk import _bulk_temperature as _bulk_temperature
 from .bulk import _Columns
+from .fastread import ScanRefusedError
 from .jsonread import _read_json
 from .numtext import _number as _number
 from .numtext import _round_ratio as _round_ratio
@@ -140,15 +141,20 @@ def parse_model(data: bytes | str, name: str = "<model>") -> Model:
         return _parse_model(data, name)
 
 
-def _parse_model(data: bytes | str, name: str) -> Model:
-    parsed = _read_json(data, name)
+def _parse_model(data: bytes | str, name: str, scan: bool = True) -> Model:
+    # a large results map is first read from its bytes (fastread.py); anything it cannot vouch for, and every
+    # problem, makes the reader start again from the tree, which finds and words every problem
+    parsed = _read_json(data, name, "model" if scan else None)
     probs = _Problems()
     cols = _Columns()
-    _check_document(parsed, "model", probs, cols)
-    if probs.blocking:
-        raise probs.error(parsed.doc, name)
-    model = _build_model(parsed.doc, probs, cols)
-    if probs:
+    try:
+        _check_document(parsed, "model", probs, cols)
+        model = None if probs.blocking else _build_model(parsed.doc, probs, cols)
+    except ScanRefusedError:
+        return _parse_model(data, name, scan=False)
+    if parsed.scanned and probs:
+        return _parse_model(data, name, scan=False)
+    if model is None or probs:
         raise probs.error(parsed.doc, name)
     return model
 
@@ -165,14 +171,17 @@ def parse_results(data: bytes | str, model: Model, name: str = "<results>") -> R
         return _parse_results(data, model, name)
 
 
-def _parse_results(data: bytes | str, model: Model, name: str) -> Results:
-    parsed = _read_json(data, name)
+def _parse_results(data: bytes | str, model: Model, name: str, scan: bool = True) -> Results:
+    parsed = _read_json(data, name, "results" if scan else None)  # scanned maps: as in _parse_model
     probs = _Problems()
-    _check_document(parsed, "results", probs, _Columns())
-    if probs.blocking:
-        raise probs.error(parsed.doc, name)
-    results = _results(parsed.doc, _frame_of(model), (), probs)
-    if probs:
+    try:
+        _check_document(parsed, "results", probs, _Columns())
+        results = None if probs.blocking else _results(parsed.doc, _frame_of(model), (), probs)
+    except ScanRefusedError:
+        return _parse_results(data, model, name, scan=False)
+    if parsed.scanned and probs:
+        return _parse_results(data, model, name, scan=False)
+    if results is None or probs:
         raise probs.error(parsed.doc, name)
     return results
 

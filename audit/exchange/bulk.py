@@ -16,6 +16,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from ..model import AXES
+from .fastread import ScannedMap
 from .problems import Path_
 
 
@@ -174,7 +175,9 @@ class _Hot:
 
 def _take(parent: dict[str, Any], key: str, path: Path_, ref: str, bulk: Bulk, hot: list[_Hot]) -> None:
     value = parent.get(key)
-    if type(value) is list or type(value) is dict:
+    if type(value) is ScannedMap:  # its shape is proven by the scan: names, and numbers where the schema has them
+        parent[key] = {}
+    elif type(value) is list or type(value) is dict:
         hot.append(_Hot((*path, key), value, ref, bulk))
         parent[key] = type(value)()
 

@@ -35,9 +35,10 @@ class _Json:
     doc: Any
     duplicates: list[tuple[dict[str, Any], list[str]]]
     constants: int
+    scanned: bool = False  #: results maps in the tree are :class:`~audit.exchange.fastread.ScannedMap`
 
 
-def _read_json(data: bytes | bytearray | memoryview | str, name: str) -> _Json:
+def _read_json(data: bytes | bytearray | memoryview | str, name: str, scan: str | None = None) -> _Json:
     """Parse JSON text keeping every number's decimal text; syntax errors raise at once."""
     max_bytes = _limits.MAX_BYTES
     if isinstance(data, str):
@@ -50,6 +51,10 @@ def _read_json(data: bytes | bytearray | memoryview | str, name: str) -> _Json:
             raise _fail(name, "$", f"input is too large: {len(raw)} bytes, the limit is {max_bytes} bytes")
         if raw.startswith(b"\xef\xbb\xbf"):
             raw = raw[3:]
+        if scan is not None:
+            scanned = _scanned_tree(raw, scan)
+            if scanned is not None:
+                return _Json(scanned, [], 0, scanned=True)
         fast = _fast_tree(raw)
         if fast:
             return _Json(fast[0], [], 0)
@@ -159,6 +164,64 @@ def _fast_tree(data: bytes | str) -> tuple[Any] | None:
     if _count_keys(doc) != key_ends:
         return None
     return (doc,)
+
+
+#: inputs smaller than this are not worth scanning (the tree of a small file is quick to build)
+SCAN_MIN_BYTES = 1 << 20
+
+
+def _scanned_tree(raw: bytes, kind: str) -> Any | None:
+    """The tree of a ``"model"`` or ``"results"`` document with its large results maps as ScannedMap; None if unsure.
+
+    As :func:`_fast_tree`, and only for ASCII input (so that the scanned names are valid text): the levels
+    above the maps are decoded as maps of ``Raw`` (msgspec checks the syntax of what it skips), everything
+    else as :func:`_fast_tree` does; the keys of the whole tree, scanned maps included, must be as many as
+    ``":`` in the text.
+    """
+    if not USE_COMPILED or len(raw) < SCAN_MIN_BYTES or not raw.isascii() or b"\\" in raw:
+        return None
+    key_ends = raw.count(b'":')
+    if raw.count(b":") != key_ends and _SPACED_KEY.search(raw):
+        return None
+    import msgspec
+
+    from .fastread import scan_components, scan_numbers
+
+    decoder = _fast_decoder()
+    scanned_keys = 0
+
+    def plain(v: Any) -> Any:
+        return decoder.decode(v)
+
+    def cases_of(v: Any) -> dict[str, Any]:
+        nonlocal scanned_keys
+        cases: dict[str, dict[str, Any]] = {}
+        for cid, case in msgspec.json.decode(v, type=dict[str, dict[str, msgspec.Raw]]).items():
+            cases[cid] = {}
+            for key, part in case.items():
+                scan = scan_numbers if key == "axial_forces" else scan_components
+                found = scan(bytes(part)) if key in ("axial_forces", "displacements", "reactions") else None
+                cases[cid][key] = plain(part) if found is None else found
+                scanned_keys += 0 if found is None else found.keys
+        return cases
+
+    def body_of(body: dict[str, Any]) -> dict[str, Any]:
+        return {k: cases_of(v) if k == "cases" else plain(v) for k, v in body.items()}
+
+    try:
+        top = msgspec.json.decode(raw, type=dict[str, msgspec.Raw])
+        if kind == "results":
+            doc = body_of(top)
+        elif type(top.get("results")) is msgspec.Raw:
+            results = msgspec.json.decode(top["results"], type=dict[str, msgspec.Raw])
+            doc = {k: body_of(results) if k == "results" else plain(v) for k, v in top.items()}
+        else:
+            return None
+    except Exception:  # not objects where the format has them, a syntax error...: the tree, which words it
+        return None
+    if not scanned_keys or _count_keys(doc) + scanned_keys != key_ends:
+        return None
+    return doc
 
 
 _SCALARS = frozenset((str, int, bytes, bool, float, type(None)))

@@ -7,6 +7,7 @@ against a :class:`_Frame`: what they need to know of the model they belong to.
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 from typing import Any
 
@@ -14,6 +15,7 @@ import numpy as np
 
 from ..model import AXES, FORCE_UNITS, LENGTH_UNITS, CaseResults, Model, Results, SourceStiffness, Units
 from .bulk import _MISSING, _uniform_columns
+from .fastread import ScannedMap, ScanRefusedError, numbers_of
 from .problems import Path_, _Problems
 from .values import _floats, _id, _quanta
 
@@ -65,6 +67,13 @@ def _results(body: dict[str, Any], frame: _Frame, base: Path_, probs: _Problems)
             values = np.full((n, dim), np.nan)
             quantum = np.full((n, dim), np.nan)
             table: dict[str, Any] = case.get(key, {})
+            if type(table) is ScannedMap:
+                rows, (vals, quanta) = _rows(table, frame.node_index, n), _numbers(table)
+                if np.any(table.axis >= dim):
+                    raise ScanRefusedError
+                values[rows[table.entry], table.axis] = vals * factor
+                quantum[rows[table.entry], table.axis] = quanta * factor
+                return values, quantum
             names = list(table)
             comps = list(table.values())
             idx = list(map(frame.node_index.get, names))
@@ -105,6 +114,11 @@ def _results(body: dict[str, Any], frame: _Frame, base: Path_, probs: _Problems)
         forces = np.full(m, np.nan)
         forces_q = np.full(m, np.nan)
         table_f: dict[str, Any] = case.get("axial_forces", {})
+        if type(table_f) is ScannedMap:
+            rows_s, (vals_f, quanta_f) = _rows(table_f, frame.member_index, m), _numbers(table_f)
+            forces[rows_s] = vals_f * (ff * axial_sign)
+            forces_q[rows_s] = quanta_f * ff
+            table_f = {}
         names_f = list(table_f)
         idx_f = list(map(frame.member_index.get, names_f))
         raw_f = list(table_f.values())
@@ -145,6 +159,31 @@ def _results(body: dict[str, Any], frame: _Frame, base: Path_, probs: _Problems)
         force_factor=ff,
         cases=tuple(out),
     )
+
+
+def _numbers(table: ScannedMap) -> tuple[np.ndarray, np.ndarray]:
+    found = numbers_of(table.texts)
+    if found is None:  # a number beyond float64: the tree's reading reports it with its place
+        raise ScanRefusedError
+    return found
+
+
+def _rows(table: ScannedMap, index: dict[str, int], count: int) -> np.ndarray:
+    """The index of each name of a scanned map (ScanRefusedError if one is unknown or given twice)."""
+    ids = list(index)
+    names = table.names
+    if len(names) == len(ids) and "\x00" not in "".join(ids):
+        try:
+            if np.array_equal(names, np.array(ids, dtype=np.bytes_)):  # written in the model's order
+                return np.arange(len(ids), dtype=np.int64)
+        except UnicodeEncodeError:  # a non-ASCII id (the names are ASCII)
+            pass
+    rows = np.fromiter(
+        map(index.get, map(bytes.decode, names.tolist()), itertools.repeat(-1)), dtype=np.int64, count=len(names)
+    )
+    if len(rows) and (rows.min() < 0 or np.bincount(rows, minlength=count).max() > 1):
+        raise ScanRefusedError
+    return rows
 
 
 def _stiffness(st: dict[str, Any], frame: _Frame, probs: _Problems) -> SourceStiffness:
