@@ -127,11 +127,12 @@ def _build_model(doc: dict[str, Any], probs: _Problems, cols: _Columns) -> Model
         probs.add(("members",), "a model needs at least one member")
 
     node_ids, node_index = _index_ids(nodes, "id", "node", ("nodes",), probs, cols)
+    z = cols.column(nodes, "z") if cols.any_has(nodes, "z") else [_MISSING] * len(nodes)
     if dim == 2:
-        for i in (i for i, nd in enumerate(nodes) if "z" in nd) if cols.any_has(nodes, "z") else ():
+        for i in (i for i, v in enumerate(z) if v is not _MISSING) if cols.any_has(nodes, "z") else ():
             probs.add(("nodes", i, "z"), "key 'z' is not allowed in a 2D model")
     else:
-        for i in (i for i, nd in enumerate(nodes) if "z" not in nd):
+        for i in (i for i, v in enumerate(z) if v is _MISSING):
             probs.add(("nodes", i, "z"), "required key 'z' is missing (the model is 3D)")
     raw_cols = [cols.column(nodes, a) for a in AXES[:dim]]
     raw_cols = [[0 if v is _MISSING else v for v in col] if _MISSING in col else col for col in raw_cols]

@@ -93,44 +93,38 @@ class _Tokens:
         return np.where(k >= 0, self.brace_depth[np.maximum(k, 0)], 0)
 
 
-def _tokens(seg: bytes) -> _Tokens | None:
+def _tokens(seg: bytes, allowed: np.ndarray = _ALLOWED) -> _Tokens | None:
     """Strings, braces, colons and number runs of a map's text; None if something else is outside its strings.
 
-    No pass keeps a running count over the bytes: whether a position is inside a string is the parity of the
-    quotes before it (``searchsorted`` on the quote positions), asked only of the few positions that matter.
+    A position is inside a string when an odd number of quotes comes before it (a running count in
+    ``uint8``, whose parity is right however it wraps).
     """
     b = np.frombuffer(seg, dtype=np.uint8)
-    q = np.flatnonzero(b == 34)
+    quote = b == 34
+    q = np.flatnonzero(quote)
     if len(q) % 2:
         return None
-
-    def outside(pos: np.ndarray) -> np.ndarray:
-        return pos[(np.searchsorted(q, pos) & 1) == 0]
-
-    odd = np.flatnonzero(~_ALLOWED[b])  # quotes, and what only a string may hold (the letters of keys)
-    odd = odd[b[odd] != 34]
-    if len(odd) and not (np.searchsorted(q, odd) & 1).all():
+    outside = (np.cumsum(quote, dtype=np.uint8) & 1) == 0
+    outside &= ~quote
+    if (outside & ~allowed[b]).any():
         return None
-    opens = outside(np.flatnonzero(b == ord("{")))
-    closes_b = outside(np.flatnonzero(b == ord("}")))
+    opens = np.flatnonzero(outside & (b == ord("{")))
+    closes_b = np.flatnonzero(outside & (b == ord("}")))
     brace_pos = np.concatenate([opens, closes_b])
     order = np.argsort(brace_pos, kind="stable")
     steps = np.concatenate([np.ones(len(opens), np.int64), -np.ones(len(closes_b), np.int64)])[order]
-    num = _IS_NUMBER[b].view(np.int8)
+    num = (outside & _IS_NUMBER[b]).view(np.int8)
     edge = np.diff(num, prepend=np.int8(0), append=np.int8(0))
-    run_starts = np.flatnonzero(edge == 1)
-    run_ends = np.flatnonzero(edge == -1)
-    keep = (np.searchsorted(q, run_starts) & 1) == 0
     return _Tokens(
         b,
         q[0::2],
         q[1::2],
         brace_pos[order],
         np.cumsum(steps),
-        outside(np.flatnonzero(b == ord(":"))),
+        np.flatnonzero(outside & (b == ord(":"))),
         opens,
-        run_starts[keep],
-        run_ends[keep],
+        np.flatnonzero(edge == 1),
+        np.flatnonzero(edge == -1),
     )
 
 

@@ -212,7 +212,7 @@ def _scanned_tree(raw: bytes, kind: str) -> Any | None:
         top = msgspec.json.decode(raw, type=dict[str, msgspec.Raw])
         if kind == "results":
             doc = body_of(top)
-        elif type(top.get("results")) is msgspec.Raw:
+        elif "results" in top:
             results = msgspec.json.decode(top["results"], type=dict[str, msgspec.Raw])
             doc = {k: body_of(results) if k == "results" else plain(v) for k, v in top.items()}
         else:
