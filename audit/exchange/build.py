@@ -115,6 +115,26 @@ def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs
     return arrays, texts, has_alpha
 
 
+def _ends_as_written(node_written: list[Any], written: list[Any]) -> np.ndarray:
+    """The node index of each end looked up by its id as written (no string made per member); -1 if not found.
+
+    The caller looks those up again by their string form (``7`` is ``"7"``).  When the nodes' ids are the
+    integers 0, 1, 2, ... in order (as programs write them), an integer end is its own index.
+    """
+    n = len(node_written)
+    if n and type(node_written[0]) is int and node_written == list(range(n)) and set(map(type, written)) == {int}:
+        try:
+            ends = np.array(written, dtype=np.int64)
+        except OverflowError:  # an integer beyond int64 names no node here
+            pass
+        else:
+            ends[(ends < 0) | (ends >= n)] = -1
+            return ends
+    by_written = dict(zip(node_written, range(n), strict=True))
+    found = map(by_written.get, written, itertools.repeat(-1, len(written)))
+    return np.fromiter(found, dtype=np.int64, count=len(written))
+
+
 def _build_model(doc: dict[str, Any], probs: _Problems, cols: _Columns) -> Model:
     dim: int = doc["dimensions"]
     u = doc["units"]
@@ -145,14 +165,10 @@ def _build_model(doc: dict[str, Any], probs: _Problems, cols: _Columns) -> Model
     coords_text = tuple(zip(*(_texts(col) for col in raw_cols), strict=True))
 
     member_ids, member_index = _index_ids(members, "id", "member", ("members",), probs, cols)
-    # look ends up by the id as written first (no string made per member), then by its string form (7 == "7")
-    by_written = dict(zip(cols.column(nodes, "id"), range(len(nodes)), strict=True))
     conn = np.empty((len(members), 2), dtype=np.int64)
     for col, key in enumerate(("start", "end")):
         written = cols.column(members, key)
-        conn[:, col] = np.fromiter(
-            map(by_written.get, written, itertools.repeat(-1, len(written))), dtype=np.int64, count=len(written)
-        )
+        conn[:, col] = _ends_as_written(cols.column(nodes, "id"), written)
         for i in np.flatnonzero(conn[:, col] < 0).tolist():
             name = str(written[i])
             conn[i, col] = node_index.get(name, -1)
