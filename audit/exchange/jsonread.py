@@ -13,6 +13,12 @@ until they are converted.  An integer may not have more than 4300 digits
 (Python's own guard).  Keys starting with ``x-`` are kept and otherwise
 ignored: ``NaN``/``Infinity`` and nesting are checked inside them, but their
 numbers are not converted, so an overflow there is not an error.
+
+Three ways to the same tree, the first that can vouch for its answer wins:
+:func:`_scanned_tree` (a large document whose results maps are left to
+:mod:`audit.exchange.fastread`, asked for by the caller), :func:`_fast_tree`
+(msgspec) and the standard library's :func:`json.loads`, the reference, which
+alone words problems.  ``USE_COMPILED = False`` leaves only the last.
 """
 
 from __future__ import annotations
@@ -183,11 +189,13 @@ def _scanned_tree(raw: bytes, kind: str) -> Any | None:
     key_ends = raw.count(b'":')
     if raw.count(b":") != key_ends and _SPACED_KEY.search(raw):
         return None
+    decoder = _fast_decoder()
+    if decoder is None:
+        return None
     import msgspec
 
     from .fastread import scan_components, scan_numbers
 
-    decoder = _fast_decoder()
     scanned_keys = 0
 
     def plain(v: Any) -> Any:
