@@ -42,6 +42,9 @@ from .residual import Scales, apply_K_err, exact_residual, reduce_residual
 from .states import States
 from .steering import OutOfRangeError, SteeringResidual, dd_add, ints_to_dd
 
+#: placeholder for an exact residual's arrays released before the next one is computed
+_DROPPED: ObjArray = np.zeros(0, dtype=object)
+
 
 @dataclass(frozen=True)
 class Iterate:
@@ -215,6 +218,7 @@ def refine(
             eff = _reduce_float(ex, fast[0])
             steered += 1
         else:
+            r = rm = p = _DROPPED  # the last exact residual's arrays go before the next one is formed (peak memory)
             r, rm, mag, eff, err, p = exact_residual(ex, sc, rhs, rhs_err, u, with_err=False)
             exact_count += 1
         t_res += time.perf_counter() - t0
