@@ -46,7 +46,7 @@ import numpy as np
 from audit.model import FloatArray
 
 from .exact_model import ExactModel
-from .exact_numbers import ObjArray, ints_to_float
+from .exact_numbers import ObjArray, abs_to_float_bound, ints_to_float
 from .states import States
 
 
@@ -125,12 +125,12 @@ def apply_K_err(ex: ExactModel, sc: Scales, p: ObjArray) -> FloatArray:
     """Bound (residual units) on |K̂u − K*u| from the rounded 1/L³: η·Σ_e |EA/L³·p_e|·|v_e| at both ends."""
     inv_unit = float(1 / sc.unit)
     if unit_in_range(float(sc.unit)):
-        pf = np.abs(ints_to_float(p, -ex.kx - sc.ku, -sc.S))  # real
+        pf = abs_to_float_bound(p, -ex.kx - sc.ku, -sc.S)  # real, within 2^-50 (covered by the factor 1.02)
         mag = ex.cf[:, None] * pf  # real |EA/L³·p|
         absF = mag[:, None, :] * np.abs(ex.vf)[:, :, None]
         return _scatter_abs(ex.n_nodes, ex.s_idx, ex.e_idx, absF) * inv_unit * ex.eta * 1.02
     # forces near the float range's limits: p in units of the residual scale (exact integer scaling) instead
-    pf = np.abs(ints_to_float(p, -ex.kx - sc.ku - sc.e10f, -sc.S - sc.e2f - sc.Y))
+    pf = abs_to_float_bound(p, -ex.kx - sc.ku - sc.e10f, -sc.S - sc.e2f - sc.Y)
     absF = (ex.cf[:, None] * pf)[:, None, :] * np.abs(ex.vf)[:, :, None]
     return _scatter_abs(ex.n_nodes, ex.s_idx, ex.e_idx, absF) * ex.eta * 1.02
 
