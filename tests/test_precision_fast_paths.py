@@ -12,6 +12,7 @@ so that the bounds are bit-identical to those of that order.
 from __future__ import annotations
 
 import copy
+import math
 from fractions import Fraction
 from typing import Any
 
@@ -143,3 +144,46 @@ def test_float_scatter_adds_in_the_order_of_add_at(n_nodes: int, m: int, seed: i
     got = residual._scatter_abs(n_nodes, s, e, F)
     assert got.shape == want.shape
     assert np.array_equal(got, want)  # bit for bit
+
+
+def _slow_ints_to_float(a: np.ndarray, e10: int, e2: int) -> np.ndarray:
+    """The exact path of ints_to_float for e10 < 0 on the whole array, as it ran before the mixed split."""
+    den = 10 ** (-e10)
+    shift = 64 + den.bit_length()
+    return np.ldexp((a * (1 << shift) // den).astype(np.float64), e2 - shift)
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    st.lists(st.integers(min_value=-(2**53), max_value=2**53), min_size=1, max_size=5),
+    st.lists(st.integers(min_value=-(2**400), max_value=2**400), min_size=1, max_size=5),
+    st.integers(min_value=-22, max_value=-1),
+    st.integers(min_value=-400, max_value=400),
+)
+def test_mixed_ints_to_float_equals_the_exact_path(small: list[int], big: list[int], e10: int, e2: int) -> None:
+    """Small entries beside big ones: each as correctly rounded as alone, and bit-identical to the exact path."""
+    big = [b if abs(b) > 2**53 else b + 2**60 for b in big]  # make them beyond 2^53
+    a = np.empty(len(small) + len(big), dtype=object)
+    a[:] = small + big
+    got = ints_to_float(a, e10, e2)
+    assert np.array_equal(got, _slow_ints_to_float(a, e10, e2))
+    for x, g in zip(small, got.tolist(), strict=False):
+        assert g == float(Fraction(x) * Fraction(10) ** e10 * Fraction(2) ** e2)  # int/int: correctly rounded
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    st.lists(st.floats(allow_nan=False, allow_infinity=False, allow_subnormal=True, width=64), min_size=1, max_size=8),
+    st.integers(min_value=-200, max_value=1100),
+)
+def test_float_exact_to_scale_is_the_floor(xs: list[float], s2: int) -> None:
+    """floor(x·2^s2) exactly (fractions), error 1 exactly where the scaled float has bits below the unit."""
+    from audit.precision.exact_numbers import float_exact_to_scale
+
+    x = np.array(xs)
+    ints, err = float_exact_to_scale(x, 0, s2)
+    for xi, n, ei in zip(xs, ints.tolist(), err.tolist(), strict=True):
+        v = Fraction(xi) * Fraction(2) ** s2
+        assert n == math.floor(v)
+        _m, ex = math.frexp(xi)
+        assert ei == (1.0 if ex - 53 + s2 < 0 else 0.0)
