@@ -32,6 +32,7 @@ estimate (``estimated_digits``), not as proven.
 
 from __future__ import annotations
 
+import itertools
 import math
 
 import mpmath
@@ -77,8 +78,11 @@ def input_precision(model: Model) -> tuple[float, str]:
     if loads:
         consider(min(text_quantum(t) / abs(float(t)) for t in set(loads)), "loads")
     if model.coords_text and model.n_members:
-        cache = {t: text_quantum(t) for t in {t for row in model.coords_text for t in row}}
-        q = np.array([[cache[t] for t in row] for row in model.coords_text])
+        flat = list(itertools.chain.from_iterable(model.coords_text))
+        cache = {t: text_quantum(t) for t in set(flat)}
+        q = np.fromiter(map(cache.__getitem__, flat), dtype=np.float64, count=len(flat)).reshape(
+            len(model.coords_text), -1
+        )
         qn = np.sqrt((q**2).sum(axis=1))
         consider(float(np.min((qn[model.conn[:, 0]] + qn[model.conn[:, 1]]) / model.lengths())), "coordinates")
     return best, src
