@@ -53,7 +53,7 @@ def decimal_ints(texts: Sequence[str]) -> tuple[ObjArray, int]:
     p = 10**k
     as_int = {t: f.numerator * (p // f.denominator) for t, f in parsed.items()}
     out = np.empty(len(texts), dtype=object)
-    out[:] = [as_int[t] for t in texts]
+    out[:] = list(map(as_int.__getitem__, texts))
     return out, k
 
 
