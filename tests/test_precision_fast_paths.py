@@ -103,8 +103,9 @@ def test_exact_residual_equals_the_sympy_residual(springs: bool, monkeypatch: py
 def test_abs_to_float_bound_is_within_its_relative_error(ints: list[int], e10: int, e2: int) -> None:
     a = np.empty(len(ints), dtype=object)
     a[:] = ints
-    got = abs_to_float_bound(a, e10, e2)
-    exact_rounded = np.abs(ints_to_float(a, e10, e2))
+    with np.errstate(over="ignore"):  # beyond the float range ints_to_float gives inf (as documented)
+        got = abs_to_float_bound(a, e10, e2)
+        exact_rounded = np.abs(ints_to_float(a, e10, e2))
     for x, g, cr in zip(ints, got.tolist(), exact_rounded.tolist(), strict=True):
         v = abs(Fraction(x) * Fraction(10) ** e10 * Fraction(2) ** e2)
         if 2.0**-1000 <= cr <= 2.0**1000 or v == 0:
@@ -187,3 +188,40 @@ def test_float_exact_to_scale_is_the_floor(xs: list[float], s2: int) -> None:
         assert n == math.floor(v)
         _m, ex = math.frexp(xi)
         assert ei == (1.0 if ex - 53 + s2 < 0 else 0.0)
+
+
+def test_start_iterate_in_double_double_is_ints_to_dd(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The steering's first iterate from the float start equals ints_to_dd of the exact ints, bit for bit."""
+    from audit.precision import refinement, steering
+
+    seen: dict[str, Any] = {}
+    orig = refinement.start_iterate
+
+    def spy(ex, sc, U0, up):  # type: ignore[no-untyped-def]
+        it = orig(ex, sc, U0, up)
+        seen.update(ex=ex, it=it)
+        return it
+
+    monkeypatch.setattr(analysis, "start_iterate", spy)
+    _seen(grid_doc(5), monkeypatch)
+    ex, it = seen["ex"], seen["it"]
+    assert it.uf is not None
+    assert ex.rn.size  # restrained nodes are taken from the exact ints
+    got = refinement._start_dd(ex, it)
+    want = steering.ints_to_dd(it.u, 0)
+    assert got is not None
+    for g, w in zip(got, want, strict=True):
+        assert np.array_equal(g, w)
+        assert np.array_equal(np.signbit(g), np.signbit(w))
+    # a negative value that rounded to zero on the grid (rint gives −0.0): still ints_to_dd's +0.0
+    free = int(np.flatnonzero(ex.free_node)[0])
+    uf = it.uf.copy()
+    u = it.u.copy()
+    uf[free, 0, 0] = -0.0
+    u[free, 0, 0] = 0
+    it2 = refinement.Iterate(u, it.w, it.up, uf)
+    got2 = refinement._start_dd(ex, it2)
+    assert got2 is not None
+    for g, w in zip(got2, steering.ints_to_dd(u, 0), strict=True):
+        assert np.array_equal(g, w)
+        assert np.array_equal(np.signbit(g), np.signbit(w))

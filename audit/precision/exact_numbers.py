@@ -169,7 +169,8 @@ def abs_to_float_bound(ints: ObjArray, e10: int, e2: int) -> FloatArray:
         except OverflowError:
             f = None
         if f is not None:
-            out = f * conv
+            with np.errstate(over="ignore", under="ignore"):  # out of range: checked just below
+                out = f * conv
             nz = out[out != 0.0]
             if not nz.size or (float(nz.min()) >= 2.0**-1000 and float(nz.max()) <= 2.0**1000):
                 return out
