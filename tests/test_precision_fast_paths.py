@@ -225,3 +225,12 @@ def test_start_iterate_in_double_double_is_ints_to_dd(monkeypatch: pytest.Monkey
     for g, w in zip(got2, steering.ints_to_dd(u, 0), strict=True):
         assert np.array_equal(g, w)
         assert np.array_equal(np.signbit(g), np.signbit(w))
+
+
+@pytest.mark.parametrize("x", [2**53 + 1, -(2**53 + 1), 2**53, 2**53 - 1])
+@pytest.mark.parametrize("e10", [-2, -22, 3])
+def test_ints_to_float_next_to_2_pow_53_is_correctly_rounded(x: int, e10: int) -> None:
+    """2^53 + 1 is the one integer that rounds to 2^53 (ties to even): it must not take the one-division path."""
+    for a in (np.array([x], dtype=object), np.array([0, x], dtype=object), np.array([7, x], dtype=object)):
+        got = float(ints_to_float(a, e10, 0)[-1])
+        assert got == float(Fraction(x) * Fraction(10) ** e10)  # int/int: correctly rounded

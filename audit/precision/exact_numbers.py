@@ -118,7 +118,7 @@ _EXACT_POW10 = 22
 
 
 def _small_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
-    """The fast path of :func:`ints_to_float` when |e10| <= 22 and (e10 = 0 or every |int| <= 2^53), else None.
+    """The fast path of :func:`ints_to_float` when |e10| <= 22 and (e10 = 0 or every |int| < 2^53), else None.
 
     Then each int and 10^|e10| are float64 exactly, and one IEEE multiplication or division is correctly
     rounded (IEEE 754-2019, §4.3); the scaling by 2^e2 is exact unless the result leaves the normal range,
@@ -130,7 +130,7 @@ def _small_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
         f = a.astype(np.float64)  # correctly rounded (PyLong_AsDouble)
     except OverflowError:
         return None
-    if e10 and not float(np.max(np.abs(f))) <= 2.0**53:  # |f| <= 2^53 iff |int| <= 2^53 (monotone rounding)
+    if e10 and not float(np.max(np.abs(f))) < 2.0**53:  # |f| < 2^53 implies |int| < 2^53 (2^53 + 1 rounds to 2^53)
         return None
     if e10 > 0:
         f = f * 10.0**e10
@@ -178,9 +178,9 @@ def abs_to_float_bound(ints: ObjArray, e10: int, e2: int) -> FloatArray:
 
 
 def _mixed_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
-    """:func:`ints_to_float` when only some entries exceed 2^53 (0 < |e10| <= 22): the fast path for the others.
+    """:func:`ints_to_float` when only some entries reach 2^53 (0 < |e10| <= 22): the fast path for the others.
 
-    Each entry's value is the same either way: an int of at most 2^53 divided (multiplied) by 10^|e10| <= 10^22
+    Each entry's value is the same either way: an int below 2^53 divided (multiplied) by 10^|e10| <= 10^22
     is correctly rounded by one IEEE operation, and the exact path's ``(a·2^shift) // 10^|e10|`` (64 bits more
     than needed) cannot land on a rounding midpoint for such an entry: its distance to one is at least
     ``2^-54·5^-22·|a| > 2^-117·|a|`` unless it is one exactly.  None when the split does not apply.
@@ -191,7 +191,7 @@ def _mixed_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
         f = a.astype(np.float64)
     except OverflowError:
         return None
-    big = np.abs(f) > 2.0**53
+    big = np.abs(f) >= 2.0**53
     if big.all() or not big.any():
         return None
     small = ~big
