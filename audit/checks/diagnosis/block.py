@@ -57,8 +57,38 @@ SAMPLE = 2048
 SLACK = 1e-9
 #: members per chunk when a block of responses is reduced over all members (bounds the memory held)
 CHUNK = 1 << 16
-#: right-hand sides per call of the factor's solve (its copies of the block are bounded by this many columns)
+#: right-hand sides per call of the factor's solve, at least (its copies of the block are bounded by this many
+#: columns or by ``SOLVE_BUDGET``, whichever allows more)
 SOLVE_COLUMNS = 16
+#: entries (float64) of one copy of a block of right-hand sides: a call of the factor's solve takes as many
+#: columns as fit in it (16 MiB × 8), since a direct solve reads the whole factor once per call and more
+#: columns per call cost less each (PARDISO, 2 cores: 3-D lattice of 2·10⁵ members, 50 ms for one column,
+#: 21 ms per column in a block of 16, 15 ms in a block of 32; ``benchmarks/bench_diagnosis.py``)
+SOLVE_BUDGET = 1 << 24
+
+
+@dataclass(frozen=True)
+class Needs:
+    """Columns a family will ask the :class:`Superposition` for, so that they are solved in one block."""
+
+    members: tuple[int, ...] = ()  #: ``K⁻¹ b`` of these members (:meth:`Superposition.member_columns`)
+    dofs: tuple[int, ...] = ()  #: ``K⁻¹ e`` of unit forces on these global dofs (:meth:`Superposition.dof_columns`)
+    restraints: tuple[int, ...] = ()  #: unit settlements of these restraints (:meth:`Superposition.settlements`)
+
+    def __or__(self, other: Needs) -> Needs:
+        return Needs(self.members + other.members, self.dofs + other.dofs, self.restraints + other.restraints)
+
+
+def block_widths(total: int, n_rows: int) -> list[int]:
+    """Widths of the calls a block of ``total`` right-hand sides of ``n_rows`` is solved in: as few calls as
+    ``SOLVE_COLUMNS`` / ``SOLVE_BUDGET`` allow, of equal widths (a narrow remainder would cost a call of its
+    own at the full price of reading the factor)."""
+    if total <= 0:
+        return []
+    per = max(SOLVE_COLUMNS, SOLVE_BUDGET // max(n_rows, 1))
+    calls = -(-total // per)
+    base, extra = divmod(total, calls)
+    return [base + (1 if i < extra else 0) for i in range(calls)]
 
 
 class Superposition:
@@ -69,6 +99,7 @@ class Superposition:
         self.model = ctx.model
         self.T = ctx.system.T
         self.U_p = ctx.system.U_p
+        self.system = ctx.system
         self.factor = ctx.factor
         self.B = stiffness.compatibility_matrix(ctx.model)
         self.L = ctx.model.lengths()
@@ -76,6 +107,8 @@ class Superposition:
         self.mask = np.zeros(ctx.model.n_nodes, dtype=bool)
         self.mask[ctx.system.supported_nodes] = True
         self._chunks: list[tuple[int, int, Any]] | None = None
+        #: the last block solved by :meth:`prefetch`: (members, dofs, restraints, columns in that order)
+        self._blocks: tuple[list[int], list[int], list[int], FloatArray] | None = None
         self._free: Any
 
     def displacements(self, F: FloatArray) -> FloatArray:
@@ -87,9 +120,10 @@ class Superposition:
         if sp.issparse(F):
             F = sp.csc_matrix(F)
         out = np.zeros((self.T.shape[0], F.shape[1]))
-        # SOLVE_COLUMNS right-hand sides at a time: the solve's own copies of the block stay small
-        for c0 in range(0, F.shape[1], SOLVE_COLUMNS):
-            Fc = F[:, c0 : c0 + SOLVE_COLUMNS]
+        # a few wide calls (block_widths): the solve's own copies of the block stay within SOLVE_BUDGET
+        c0 = 0
+        for width in block_widths(F.shape[1], self.T.shape[1]):
+            Fc = F[:, c0 : c0 + width]
             if free is None:
                 rhs = self.T.T @ Fc
                 rhs = rhs.toarray() if sp.issparse(rhs) else np.asarray(rhs)
@@ -97,7 +131,70 @@ class Superposition:
             else:
                 rhs = Fc[free].toarray() if sp.issparse(Fc) else np.asarray(Fc)[free]
                 out[free, c0 : c0 + rhs.shape[1]] = self.factor.solve(rhs).reshape(rhs.shape)
+            c0 += width
         return out
+
+    def prefetch(self, needs: Needs) -> None:
+        """Solve every column of ``needs`` not solved before in one block (a few wide calls of the factor's
+        solve instead of one or more per family); later calls of :meth:`member_columns`, :meth:`dof_columns`
+        and :meth:`settlements` read them.  The numbers are those of the separate solves (each column is the
+        same right-hand side solved with the same factor)."""
+        mz: dict[int, FloatArray] = self.__dict__.setdefault("_member_z", {})
+        dz: dict[int, FloatArray] = self.__dict__.setdefault("_dof_z", {})
+        sz: dict[int, FloatArray] = self.__dict__.setdefault("_settle_z", {})
+        ms = sorted({int(m) for m in needs.members} - mz.keys())
+        ds = sorted({int(i) for i in needs.dofs} - dz.keys())
+        rs = sorted({int(r) for r in needs.restraints} - sz.keys())
+        if not (ms or ds or rs):
+            return
+        nd = self.T.shape[0]
+        parts = [self.B[ms].T.tocsc()] if ms else []
+        if ds:
+            parts.append(sp.csc_matrix((np.ones(len(ds)), (ds, np.arange(len(ds)))), shape=(nd, len(ds))))
+        if rs:
+            parts.append(self._settlement_rhs(rs))
+        Z = self.displacements(sp.hstack(parts, format="csc"))
+        if rs:
+            Z[:, len(ms) + len(ds) :] += self.U_p[:, rs].toarray()
+        Z.setflags(write=False)  # the caches hold views of it
+        self._blocks = (ms, ds, rs, Z)
+        for c, key in enumerate([*ms, *ds, *rs]):
+            (mz if c < len(ms) else dz if c < len(ms) + len(ds) else sz)[key] = Z[:, c]
+
+    def _settlement_rhs(self, restraints: list[int]) -> Any:
+        """``−(K + K_springs) S`` for unit settlements S of ``restraints`` (their restrained part)."""
+        S = sp.csc_matrix(self.U_p[:, restraints])
+        return sp.csc_matrix(-(self.system.K @ S + self.system.K_springs @ S))
+
+    def settlements(self, restraints: Any) -> FloatArray:
+        """(n_dofs, len(restraints)) displacements under a unit settlement of each restraint (the others held):
+        ``S − K⁻¹ (K + K_springs) S``, one block solve for those not solved before (:meth:`prefetch`)."""
+        cache: dict[int, FloatArray] = self.__dict__.setdefault("_settle_z", {})
+        rs = [int(r) for r in restraints]
+        todo = sorted(set(rs) - cache.keys())
+        if todo:
+            Z = self.displacements(self._settlement_rhs(todo)) + self.U_p[:, todo].toarray()
+            Z.setflags(write=False)
+            for c, r in enumerate(todo):
+                cache[r] = Z[:, c]
+            if todo == rs:
+                return Z
+        return self._stacked(cache, rs, 2)
+
+    def _stacked(self, cache: dict[int, FloatArray], keys: list[int], kind: int) -> FloatArray:
+        """The cached columns of ``keys`` side by side: a view of the prefetched block when they lie in it
+        as one run in that order, else a stacked copy."""
+        if not keys:
+            return np.zeros((self.T.shape[0], 0))
+        if self._blocks is not None:
+            ms, ds, rs, Z = self._blocks
+            own = (ms, ds, rs)[kind]
+            if keys[0] in own:
+                i = own.index(keys[0])
+                if own[i : i + len(keys)] == keys:
+                    at = (0, len(ms), len(ms) + len(ds))[kind] + i
+                    return Z[:, at : at + len(keys)]
+        return np.column_stack([cache[k] for k in keys])
 
     def member_columns(self, members: Any) -> FloatArray:
         """(n_dofs, len(members)) ``z = K⁻¹ b`` of each member's compatibility row b: one block solve for the
@@ -111,9 +208,7 @@ class Superposition:
                 cache[m] = Z[:, c]
             if todo == [int(m) for m in members]:
                 return Z  # every column new, in the order asked: no stacked copy
-        if len(members) == 0:
-            return np.zeros((self.T.shape[0], 0))
-        return np.column_stack([cache[int(m)] for m in members])
+        return self._stacked(cache, [int(m) for m in members], 0)
 
     def dof_columns(self, dofs: Any) -> FloatArray:
         """(n_dofs, len(dofs)) ``K⁻¹ e`` of a unit force on each global dof (restraints held): one block solve
@@ -128,9 +223,7 @@ class Superposition:
                 cache[i] = Z[:, c]
             if todo == [int(i) for i in dofs]:
                 return Z  # every column new, in the order asked: no stacked copy
-        if len(dofs) == 0:
-            return np.zeros((self.T.shape[0], 0))
-        return np.column_stack([cache[int(i)] for i in dofs])
+        return self._stacked(cache, [int(i) for i in dofs], 1)
 
     def joint_residuals(self, loads: FloatArray, obs: CaseResults) -> tuple[FloatArray, FloatArray, FloatArray]:
         """:func:`audit.checks.equilibrium.joint_residuals` of the reported results, once per (loads, results)

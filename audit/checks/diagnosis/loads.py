@@ -20,6 +20,7 @@ from audit.checks.diagnosis.block import (
     SOLVE_COLUMNS,
     Candidate,
     Evaluator,
+    Needs,
     Prediction,
     Search,
     Superposition,
@@ -27,7 +28,7 @@ from audit.checks.diagnosis.block import (
     reaction_rows,
     witness_screen,
 )
-from audit.checks.diagnosis.fit import Problem
+from audit.checks.diagnosis.fit import Plan, Problem
 from audit.context import Context
 from audit.findings import Location, Severity
 from audit.model import AXES, CaseResults, FloatArray, Model
@@ -300,14 +301,14 @@ def _factor_code(f: float, rtol: float) -> str:
     return "DX112"
 
 
-def candidates(pb: Problem) -> list[Cause]:
-    """Each suspect loaded node's load at another factor (the whole load, and each component of it), and the
-    load moved to another node: the responses of one block solve."""
+def plan(pb: Problem) -> Plan:
+    """The load columns of :func:`candidates` (``(specs, F)``: what each column is, and its loads) and the
+    unit-force responses on their dofs they combine."""
     model, obs, loads = pb.model, pb.obs, pb.actions.loads
     d = model.dim
     loaded = np.flatnonzero(np.any(loads != 0.0, axis=1))
     if loaded.size == 0:
-        return []
+        return Plan(Needs(), None)
     res = pb.solver.joint_residuals(loads, obs)[0] if obs.has_axial_forces else None
     rank = _load_rank(obs, pb.base, loads, loaded, res)
     loaded = loaded[np.argsort(rank, kind="stable")][: pb.limit]
@@ -337,6 +338,18 @@ def candidates(pb: Problem) -> list[Cause]:
                 c_i.append(c)
                 v_i.append(float(loads[n, a]))
     F = sp.csc_matrix((v_i, (r_i, c_i)), shape=(model.n_dofs, len(specs)))
+    return Plan(Needs(dofs=tuple(int(i) for i in np.unique(F.indices))), (specs, F))
+
+
+def candidates(pb: Problem, planned: Plan | None = None) -> list[Cause]:
+    """Each suspect loaded node's load at another factor (the whole load, and each component of it), and the
+    load moved to another node: the responses of one block solve."""
+    model, loads = pb.model, pb.actions.loads
+    d = model.dim
+    data = (planned if planned is not None else plan(pb)).data
+    if data is None:
+        return []
+    specs, F = data
     # the responses as combinations of unit-force responses on the loaded dofs: one block solve for the dofs
     # not solved before (shared with the supports added and the inclined supports)
     used = np.unique(F.indices)
