@@ -533,3 +533,54 @@ def reaction_rows(ev: Evaluator, solver: Superposition, extra_nodes: Any = ()) -
     dofs = (nodes[:, None] * d + np.arange(d)).ravel()
     rows = np.union1d(dofs, ev.rows("R")).astype(np.int64)
     return rows, np.searchsorted(rows, ev.rows("R"))
+
+
+def unbalanced_joints(
+    ctx: Context, ev: Evaluator, solver: Superposition, loads: FloatArray, obs: CaseResults, change: float
+) -> Any:
+    """The unsupported joints whose reported member forces prove that no candidate keeping the model's load
+    there explains the results: (k,) node indices, sorted (empty when nothing is proved).
+
+    A candidate of the single-cause search (one member's EA, a support added or released, a load missing,
+    doubled or moved) predicts the solution of a changed structure under changed loads, so at every joint it
+    leaves unsupported and unloaded-by-the-change the predicted forces balance the model's load:
+    ``f_j − B_jᵀ N_p = ε_j`` (ε the rounding of the superposition) and the predicted reaction is 0.  If the
+    candidate explains the results, every reported force at the joint is within its allowance A_m of N_p, so
+    the joint residual of the reported forces ``ρ_j = f_j + r_j − B_jᵀ N`` (:func:`audit.checks.equilibrium.
+    joint_residuals`, with r_j = 0: a joint with a nonzero reported reaction is not used) obeys
+    ``|ρ_j,a| ≤ Σ_m |B_m,ja| A_m + |ε_j,a|`` on every axis a.  A joint where it does not is proved
+    unbalanced: only a candidate that changes the load at that joint (or supports it) can explain the results.
+
+    A_m depends on the predicted N_p, not known here: with every member force reported, a candidate that
+    fits has ``|N_p| ≤ |r| + A`` everywhere, so the kind's scale is at most
+    ``S⁺ = max(action scale, (max|r| + max q) / (1 − rel − floor))`` (as in :func:`witness_screen`) and
+    ``A_m = q + max(rel·|N_p|, floor·S) ≤ A⁺_m = max((q + rel·|r_m|) / (1 − rel), q + floor·S⁺)``.
+    ε bounds the rounding of the base equilibrium and of a solve with the factor (a backward-stable solve's
+    residual is about cond·eps of ``‖Δf‖``): ``|ε_j| ≤ η (m_j + change)`` with ``η = max(WITNESS_ROUNDING,
+    10⁴·eps·cond)``, ``m_j`` the magnitude of the terms at the joint (loads and ``|B|ᵀ(|r| + A⁺)``) and
+    ``change`` an upper bound of the 1-norm of the candidates' load change.  Without every member force
+    reported, or a finite condition estimate, nothing is proved.
+    """
+    none = np.zeros(0, dtype=np.int64)
+    cond = float(getattr(ctx, "condition", np.nan))
+    tol, model = ev.tol, solver.model
+    part = next((p for p in ev.parts if p[0] == "N"), None)
+    if part is None or not np.isfinite(cond) or not obs.has_axial_forces:
+        return none
+    _key, idx, rep, q, _rep_scale = part
+    room = 1.0 - tol.relative - tol.floor
+    if idx.size != model.n_members or room <= 0.0 or tol.relative >= 1.0:
+        return none
+    s_up = max(ev.action_scale["N"], (float(np.max(np.abs(rep))) + float(np.max(q))) / room)
+    a_up = np.maximum((q + tol.relative * np.abs(rep)) / (1.0 - tol.relative), q + tol.floor * s_up)
+    absBT = abs(solver.B).T
+    d = model.dim
+    bound = (absBT @ a_up).reshape(-1, d)
+    eta = max(WITNESS_ROUNDING, 1e4 * np.finfo(np.float64).eps * cond)
+    magnitude = np.abs(loads) + (absBT @ (np.abs(rep) + a_up)).reshape(-1, d)
+    res = solver.joint_residuals(loads, obs)[0]
+    R = cm.effective_reactions(model, obs)
+    usable = ~solver.mask & np.all(np.isfinite(res), axis=1) & np.all(R == 0.0, axis=1)
+    with np.errstate(invalid="ignore"):
+        proved = np.abs(res) - eta * (magnitude + change) > bound * (1.0 + SLACK)
+    return np.flatnonzero(usable & np.any(proved, axis=1))
