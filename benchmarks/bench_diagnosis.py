@@ -29,6 +29,16 @@ Usage::
 ``--baseline DIR`` also times another version of the check on the same context: ``DIR`` holds its
 ``diagnosis.py`` and ``_diagnosis_causes.py`` (e.g. written with ``git show REV:audit/checks/diagnosis.py``),
 and the rows say whether both versions gave the same findings.
+
+``--tree DIR`` does the same for a source tree of the package layout (``DIR/audit/checks/diagnosis/``, e.g.
+the main checkout, or ``git archive REV | tar -x -C DIR``): its diagnosis package is loaded beside this one
+(the rest of the audit, context included, is this tree's) and the two are run *alternately*, baseline then
+this tree, ``--repeat`` times each, so that a shared machine's load falls on both alike.  ``--files`` times
+model files that carry their reported results (``generate.py`` output, e.g. ``benchmarks/out/*.json``)
+instead of generated sizes; their rows name the findings, with no injected error to compare with::
+
+    python benchmarks/bench_diagnosis.py --files benchmarks/out/grid2d_4.8e5_c1.json \
+        benchmarks/out/lattice3d_2e5_c1.json --tree /work/main --repeat 5
 """
 
 from __future__ import annotations
@@ -82,6 +92,94 @@ def load_baseline(folder: str) -> types.ModuleType:
     sys.modules[mod.__name__] = mod
     exec(compile(text, str(Path(folder) / "diagnosis.py"), "exec"), mod.__dict__)
     return mod
+
+
+PACKAGE = "audit.checks.diagnosis"
+
+
+def load_tree(root: str) -> types.ModuleType:
+    """The diagnosis package of another source tree (package layout), loaded under its own import names
+    and then set aside: this tree's modules are back in ``sys.modules`` afterwards, and the loaded package's
+    modules keep references to each other (their imports ran while they were the ones registered)."""
+    import audit.checks
+
+    folder = Path(root) / "audit" / "checks" / "diagnosis"
+    ours = {k: v for k, v in sys.modules.items() if k == PACKAGE or k.startswith(PACKAGE + ".")}
+    for k in ours:
+        del sys.modules[k]
+    try:
+        spec = importlib.util.spec_from_file_location(
+            PACKAGE, folder / "__init__.py", submodule_search_locations=[str(folder)]
+        )
+        assert spec is not None
+        assert spec.loader is not None
+        mod = importlib.util.module_from_spec(spec)
+        sys.modules[PACKAGE] = mod
+        spec.loader.exec_module(mod)
+    finally:
+        for k in [k for k in sys.modules if k == PACKAGE or k.startswith(PACKAGE + ".")]:
+            del sys.modules[k]
+        sys.modules.update(ours)
+        audit.checks.diagnosis = ours[PACKAGE]  # type: ignore[attr-defined]
+    return mod
+
+
+def alternate(baseline: Any, ctx: Any, repeat: int) -> dict[str, Any]:
+    """Baseline and this tree's check run in turn on one context, ``repeat`` times each: medians of the wall
+    times and of their solves, the columns solved, and whether the findings are the same."""
+    runs: dict[str, list[tuple[list[float], list[float], int, Any]]] = {"baseline": [], "new": []}
+    for _ in range(repeat):
+        runs["baseline"].append(time_check(baseline, ctx, 1))
+        runs["new"].append(time_check(diagnosis, ctx, 1))
+    row: dict[str, Any] = {}
+    texts = {}
+    for name, rs in runs.items():
+        times = [r[0][0] for r in rs]
+        row[f"{name}_s"] = [round(t, 3) for t in times]
+        row[f"{name}_median_s"] = round(statistics.median(times), 3)
+        row[f"{name}_solve_median_s"] = round(statistics.median(r[1][0] for r in rs), 3)
+        row[f"{name}_columns_solved"] = rs[-1][2]
+        texts[name] = [(f.code, f.location.label(), f.message) for o in rs[-1][3] for f in o.findings]
+    row["same_findings"] = texts["baseline"] == texts["new"]
+    row["findings"] = [(c, loc) for c, loc, _m in texts["new"]]
+    return row
+
+
+def bench_file(path: str, repeat: int, baseline: Any) -> dict[str, Any]:
+    """One model file with its reported results: the diagnosis alone, alternately with the baseline."""
+    from audit.sources import load_source
+
+    read = load_source(path)
+    t0 = time.perf_counter()
+    ctx = build_context(read.model, read.results if read.results is not None else read.model.results)
+    t_ctx = time.perf_counter() - t0
+    row = {"model": Path(path).name, "members": read.model.n_members, "context_s": round(t_ctx, 2)}
+    if baseline is None:
+        times, solves, cols, outs = time_check(diagnosis, ctx, repeat)
+        return row | {
+            "new_s": [round(t, 3) for t in times],
+            "new_median_s": round(statistics.median(times), 3),
+            "new_solve_median_s": round(statistics.median(solves), 3),
+            "new_columns_solved": cols,
+            "findings": [(f.code, f.location.label()) for o in outs for f in o.findings],
+        }
+    return row | alternate(baseline, ctx, repeat)
+
+
+def print_files(rows: list[dict[str, Any]]) -> None:
+    print(f"{'model':<24} {'members':>9} {'baseline s':>10} {'(solves)':>9} {'cols':>5} {'median s':>9} ", end="")
+    print(f"{'(solves)':>9} {'cols':>5} runs  same   findings")
+    for r in rows:
+        bs = (
+            f"{r['baseline_median_s']:>10.3f} {r['baseline_solve_median_s']:>9.3f} {r['baseline_columns_solved']:>5}"
+            if "baseline_median_s" in r
+            else f"{'-':>10} {'-':>9} {'-':>5}"
+        )
+        codes = ", ".join(f"{c} {loc}" for c, loc in r["findings"])
+        print(
+            f"{r['model']:<24} {r['members']:>9,} {bs} {r['new_median_s']:>9.3f} {r['new_solve_median_s']:>9.3f} "
+            f"{r['new_columns_solved']:>5} {len(r['new_s']):>4}  {r.get('same_findings', '-')!s:<5}  {codes[:120]}"
+        )
 
 
 class TimedFactor:
@@ -275,8 +373,21 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--ea-factor", type=float, default=0.6)
     p.add_argument("--json", help="also write the rows to this file")
     p.add_argument("--baseline", help="folder with another version's diagnosis.py and _diagnosis_causes.py")
+    p.add_argument("--tree", help="a source tree whose audit/checks/diagnosis/ is run alternately with this one")
+    p.add_argument("--files", nargs="+", help="model files with their reported results, instead of --sizes")
     a = p.parse_args(argv)
-    baseline = load_baseline(a.baseline) if a.baseline else None
+    baseline = load_tree(a.tree) if a.tree else load_baseline(a.baseline) if a.baseline else None
+    if a.files:
+        file_rows = []
+        for path in a.files:
+            file_rows.append(bench_file(path, a.repeat, baseline))
+            print(json.dumps(file_rows[-1]), flush=True)
+            gc.collect()
+        print()
+        print_files(file_rows)
+        if a.json:
+            Path(a.json).write_text(json.dumps(file_rows, indent=1))
+        return 0
     rows = []
     for size in a.sizes:
         kind, members = size.split(":")

@@ -57,8 +57,38 @@ SAMPLE = 2048
 SLACK = 1e-9
 #: members per chunk when a block of responses is reduced over all members (bounds the memory held)
 CHUNK = 1 << 16
-#: right-hand sides per call of the factor's solve (its copies of the block are bounded by this many columns)
+#: right-hand sides per call of the factor's solve, at least (its copies of the block are bounded by this many
+#: columns or by ``SOLVE_BUDGET``, whichever allows more)
 SOLVE_COLUMNS = 16
+#: entries (float64) of one copy of a block of right-hand sides: a call of the factor's solve takes as many
+#: columns as fit in it (16 MiB × 8), since a direct solve reads the whole factor once per call and more
+#: columns per call cost less each (PARDISO, 2 cores: 3-D lattice of 2·10⁵ members, 50 ms for one column,
+#: 21 ms per column in a block of 16, 15 ms in a block of 32; ``benchmarks/bench_diagnosis.py``)
+SOLVE_BUDGET = 1 << 24
+
+
+@dataclass(frozen=True)
+class Needs:
+    """Columns a family will ask the :class:`Superposition` for, so that they are solved in one block."""
+
+    members: tuple[int, ...] = ()  #: ``K⁻¹ b`` of these members (:meth:`Superposition.member_columns`)
+    dofs: tuple[int, ...] = ()  #: ``K⁻¹ e`` of unit forces on these global dofs (:meth:`Superposition.dof_columns`)
+    restraints: tuple[int, ...] = ()  #: unit settlements of these restraints (:meth:`Superposition.settlements`)
+
+    def __or__(self, other: Needs) -> Needs:
+        return Needs(self.members + other.members, self.dofs + other.dofs, self.restraints + other.restraints)
+
+
+def block_widths(total: int, n_rows: int) -> list[int]:
+    """Widths of the calls a block of ``total`` right-hand sides of ``n_rows`` is solved in: as few calls as
+    ``SOLVE_COLUMNS`` / ``SOLVE_BUDGET`` allow, of equal widths (a narrow remainder would cost a call of its
+    own at the full price of reading the factor)."""
+    if total <= 0:
+        return []
+    per = max(SOLVE_COLUMNS, SOLVE_BUDGET // max(n_rows, 1))
+    calls = -(-total // per)
+    base, extra = divmod(total, calls)
+    return [base + (1 if i < extra else 0) for i in range(calls)]
 
 
 class Superposition:
@@ -69,6 +99,7 @@ class Superposition:
         self.model = ctx.model
         self.T = ctx.system.T
         self.U_p = ctx.system.U_p
+        self.system = ctx.system
         self.factor = ctx.factor
         self.B = stiffness.compatibility_matrix(ctx.model)
         self.L = ctx.model.lengths()
@@ -76,6 +107,8 @@ class Superposition:
         self.mask = np.zeros(ctx.model.n_nodes, dtype=bool)
         self.mask[ctx.system.supported_nodes] = True
         self._chunks: list[tuple[int, int, Any]] | None = None
+        #: the last block solved by :meth:`prefetch`: (members, dofs, restraints, columns in that order)
+        self._blocks: tuple[list[int], list[int], list[int], FloatArray] | None = None
         self._free: Any
 
     def displacements(self, F: FloatArray) -> FloatArray:
@@ -87,9 +120,10 @@ class Superposition:
         if sp.issparse(F):
             F = sp.csc_matrix(F)
         out = np.zeros((self.T.shape[0], F.shape[1]))
-        # SOLVE_COLUMNS right-hand sides at a time: the solve's own copies of the block stay small
-        for c0 in range(0, F.shape[1], SOLVE_COLUMNS):
-            Fc = F[:, c0 : c0 + SOLVE_COLUMNS]
+        # a few wide calls (block_widths): the solve's own copies of the block stay within SOLVE_BUDGET
+        c0 = 0
+        for width in block_widths(F.shape[1], self.T.shape[1]):
+            Fc = F[:, c0 : c0 + width]
             if free is None:
                 rhs = self.T.T @ Fc
                 rhs = rhs.toarray() if sp.issparse(rhs) else np.asarray(rhs)
@@ -97,7 +131,70 @@ class Superposition:
             else:
                 rhs = Fc[free].toarray() if sp.issparse(Fc) else np.asarray(Fc)[free]
                 out[free, c0 : c0 + rhs.shape[1]] = self.factor.solve(rhs).reshape(rhs.shape)
+            c0 += width
         return out
+
+    def prefetch(self, needs: Needs) -> None:
+        """Solve every column of ``needs`` not solved before in one block (a few wide calls of the factor's
+        solve instead of one or more per family); later calls of :meth:`member_columns`, :meth:`dof_columns`
+        and :meth:`settlements` read them.  The numbers are those of the separate solves (each column is the
+        same right-hand side solved with the same factor)."""
+        mz: dict[int, FloatArray] = self.__dict__.setdefault("_member_z", {})
+        dz: dict[int, FloatArray] = self.__dict__.setdefault("_dof_z", {})
+        sz: dict[int, FloatArray] = self.__dict__.setdefault("_settle_z", {})
+        ms = sorted({int(m) for m in needs.members} - mz.keys())
+        ds = sorted({int(i) for i in needs.dofs} - dz.keys())
+        rs = sorted({int(r) for r in needs.restraints} - sz.keys())
+        if not (ms or ds or rs):
+            return
+        nd = self.T.shape[0]
+        parts = [self.B[ms].T.tocsc()] if ms else []
+        if ds:
+            parts.append(sp.csc_matrix((np.ones(len(ds)), (ds, np.arange(len(ds)))), shape=(nd, len(ds))))
+        if rs:
+            parts.append(self._settlement_rhs(rs))
+        Z = self.displacements(sp.hstack(parts, format="csc"))
+        if rs:
+            Z[:, len(ms) + len(ds) :] += self.U_p[:, rs].toarray()
+        Z.setflags(write=False)  # the caches hold views of it
+        self._blocks = (ms, ds, rs, Z)
+        for c, key in enumerate([*ms, *ds, *rs]):
+            (mz if c < len(ms) else dz if c < len(ms) + len(ds) else sz)[key] = Z[:, c]
+
+    def _settlement_rhs(self, restraints: list[int]) -> Any:
+        """``−(K + K_springs) S`` for unit settlements S of ``restraints`` (their restrained part)."""
+        S = sp.csc_matrix(self.U_p[:, restraints])
+        return sp.csc_matrix(-(self.system.K @ S + self.system.K_springs @ S))
+
+    def settlements(self, restraints: Any) -> FloatArray:
+        """(n_dofs, len(restraints)) displacements under a unit settlement of each restraint (the others held):
+        ``S − K⁻¹ (K + K_springs) S``, one block solve for those not solved before (:meth:`prefetch`)."""
+        cache: dict[int, FloatArray] = self.__dict__.setdefault("_settle_z", {})
+        rs = [int(r) for r in restraints]
+        todo = sorted(set(rs) - cache.keys())
+        if todo:
+            Z = self.displacements(self._settlement_rhs(todo)) + self.U_p[:, todo].toarray()
+            Z.setflags(write=False)
+            for c, r in enumerate(todo):
+                cache[r] = Z[:, c]
+            if todo == rs:
+                return Z
+        return self._stacked(cache, rs, 2)
+
+    def _stacked(self, cache: dict[int, FloatArray], keys: list[int], kind: int) -> FloatArray:
+        """The cached columns of ``keys`` side by side: a view of the prefetched block when they lie in it
+        as one run in that order, else a stacked copy."""
+        if not keys:
+            return np.zeros((self.T.shape[0], 0))
+        if self._blocks is not None:
+            ms, ds, rs, Z = self._blocks
+            own = (ms, ds, rs)[kind]
+            if keys[0] in own:
+                i = own.index(keys[0])
+                if own[i : i + len(keys)] == keys:
+                    at = (0, len(ms), len(ms) + len(ds))[kind] + i
+                    return Z[:, at : at + len(keys)]
+        return np.column_stack([cache[k] for k in keys])
 
     def member_columns(self, members: Any) -> FloatArray:
         """(n_dofs, len(members)) ``z = K⁻¹ b`` of each member's compatibility row b: one block solve for the
@@ -111,9 +208,7 @@ class Superposition:
                 cache[m] = Z[:, c]
             if todo == [int(m) for m in members]:
                 return Z  # every column new, in the order asked: no stacked copy
-        if len(members) == 0:
-            return np.zeros((self.T.shape[0], 0))
-        return np.column_stack([cache[int(m)] for m in members])
+        return self._stacked(cache, [int(m) for m in members], 0)
 
     def dof_columns(self, dofs: Any) -> FloatArray:
         """(n_dofs, len(dofs)) ``K⁻¹ e`` of a unit force on each global dof (restraints held): one block solve
@@ -128,9 +223,7 @@ class Superposition:
                 cache[i] = Z[:, c]
             if todo == [int(i) for i in dofs]:
                 return Z  # every column new, in the order asked: no stacked copy
-        if len(dofs) == 0:
-            return np.zeros((self.T.shape[0], 0))
-        return np.column_stack([cache[int(i)] for i in dofs])
+        return self._stacked(cache, [int(i) for i in dofs], 1)
 
     def joint_residuals(self, loads: FloatArray, obs: CaseResults) -> tuple[FloatArray, FloatArray, FloatArray]:
         """:func:`audit.checks.equilibrium.joint_residuals` of the reported results, once per (loads, results)
@@ -440,3 +533,54 @@ def reaction_rows(ev: Evaluator, solver: Superposition, extra_nodes: Any = ()) -
     dofs = (nodes[:, None] * d + np.arange(d)).ravel()
     rows = np.union1d(dofs, ev.rows("R")).astype(np.int64)
     return rows, np.searchsorted(rows, ev.rows("R"))
+
+
+def unbalanced_joints(
+    ctx: Context, ev: Evaluator, solver: Superposition, loads: FloatArray, obs: CaseResults, change: float
+) -> Any:
+    """The unsupported joints whose reported member forces prove that no candidate keeping the model's load
+    there explains the results: (k,) node indices, sorted (empty when nothing is proved).
+
+    A candidate of the single-cause search (one member's EA, a support added or released, a load missing,
+    doubled or moved) predicts the solution of a changed structure under changed loads, so at every joint it
+    leaves unsupported and unloaded-by-the-change the predicted forces balance the model's load:
+    ``f_j − B_jᵀ N_p = ε_j`` (ε the rounding of the superposition) and the predicted reaction is 0.  If the
+    candidate explains the results, every reported force at the joint is within its allowance A_m of N_p, so
+    the joint residual of the reported forces ``ρ_j = f_j + r_j − B_jᵀ N`` (:func:`audit.checks.equilibrium.
+    joint_residuals`, with r_j = 0: a joint with a nonzero reported reaction is not used) obeys
+    ``|ρ_j,a| ≤ Σ_m |B_m,ja| A_m + |ε_j,a|`` on every axis a.  A joint where it does not is proved
+    unbalanced: only a candidate that changes the load at that joint (or supports it) can explain the results.
+
+    A_m depends on the predicted N_p, not known here: with every member force reported, a candidate that
+    fits has ``|N_p| ≤ |r| + A`` everywhere, so the kind's scale is at most
+    ``S⁺ = max(action scale, (max|r| + max q) / (1 − rel − floor))`` (as in :func:`witness_screen`) and
+    ``A_m = q + max(rel·|N_p|, floor·S) ≤ A⁺_m = max((q + rel·|r_m|) / (1 − rel), q + floor·S⁺)``.
+    ε bounds the rounding of the base equilibrium and of a solve with the factor (a backward-stable solve's
+    residual is about cond·eps of ``‖Δf‖``): ``|ε_j| ≤ η (m_j + change)`` with ``η = max(WITNESS_ROUNDING,
+    10⁴·eps·cond)``, ``m_j`` the magnitude of the terms at the joint (loads and ``|B|ᵀ(|r| + A⁺)``) and
+    ``change`` an upper bound of the 1-norm of the candidates' load change.  Without every member force
+    reported, or a finite condition estimate, nothing is proved.
+    """
+    none = np.zeros(0, dtype=np.int64)
+    cond = float(getattr(ctx, "condition", np.nan))
+    tol, model = ev.tol, solver.model
+    part = next((p for p in ev.parts if p[0] == "N"), None)
+    if part is None or not np.isfinite(cond) or not obs.has_axial_forces:
+        return none
+    _key, idx, rep, q, _rep_scale = part
+    room = 1.0 - tol.relative - tol.floor
+    if idx.size != model.n_members or room <= 0.0 or tol.relative >= 1.0:
+        return none
+    s_up = max(ev.action_scale["N"], (float(np.max(np.abs(rep))) + float(np.max(q))) / room)
+    a_up = np.maximum((q + tol.relative * np.abs(rep)) / (1.0 - tol.relative), q + tol.floor * s_up)
+    absBT = abs(solver.B).T
+    d = model.dim
+    bound = (absBT @ a_up).reshape(-1, d)
+    eta = max(WITNESS_ROUNDING, 1e4 * np.finfo(np.float64).eps * cond)
+    magnitude = np.abs(loads) + (absBT @ (np.abs(rep) + a_up)).reshape(-1, d)
+    res = solver.joint_residuals(loads, obs)[0]
+    R = cm.effective_reactions(model, obs)
+    usable = ~solver.mask & np.all(np.isfinite(res), axis=1) & np.all(R == 0.0, axis=1)
+    with np.errstate(invalid="ignore"):
+        proved = np.abs(res) - eta * (magnitude + change) > bound * (1.0 + SLACK)
+    return np.flatnonzero(usable & np.any(proved, axis=1))

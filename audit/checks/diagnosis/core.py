@@ -47,6 +47,8 @@ tried nearest first (member hops from the joints with a differing quantity).
 
 from __future__ import annotations
 
+import functools
+import operator
 from typing import Any
 
 import numpy as np
@@ -55,7 +57,7 @@ from audit.checks import _common as cm
 from audit.checks.diagnosis import axes, fit, loads, members, nonlinear, scales, supports, table, unsolved
 from audit.checks.diagnosis import families as registry
 from audit.checks.diagnosis.base import CHECK_ID
-from audit.checks.diagnosis.block import Candidate, Evaluator, Prediction, Search, Superposition
+from audit.checks.diagnosis.block import Candidate, Evaluator, Needs, Prediction, Search, Superposition
 from audit.checks.recompute import compare_case
 from audit.context import Context
 from audit.findings import CheckOutcome, Finding, Location, Severity
@@ -256,7 +258,10 @@ def _fit_causes(
         return None, None, 0, None
     pb = fit.Problem(ctx, cid, obs, base, actions, rows, fit.Responses(solver, rows))
     fams = registry.FIT_FAMILIES if families is None else families
-    pool = [c for fam in fams for c in fam.candidates(pb)]
+    # the families that say beforehand which columns their candidates need get them from one block solve
+    plans = [fam.plan(pb) if hasattr(fam, "plan") else None for fam in fams]
+    solver.prefetch(functools.reduce(operator.or_, (p.needs for p in plans if p is not None), Needs()))
+    pool = [c for fam, p in zip(fams, plans, strict=True) for c in (fam.candidates(pb, p) if p else fam.candidates(pb))]
 
     def exact(causes: tuple[Any, ...], thetas: tuple[FloatArray, ...]) -> float:
         return ev.worst(fit.apply_set(base, causes, thetas))

@@ -25,7 +25,7 @@ import scipy.sparse as sp
 
 from audit.checks import _common as cm
 from audit.checks.diagnosis.base import RANK_SLIP, RANK_STRUCTURAL, Cause
-from audit.checks.diagnosis.block import Evaluator, Prediction, Superposition
+from audit.checks.diagnosis.block import Evaluator, Needs, Prediction, Superposition
 from audit.model import CaseResults, FloatArray
 
 #: at most this many causes in one explanation
@@ -216,6 +216,16 @@ class Problem:
         bounded single-cause search before the fit has tried ``max_candidates`` of each already)."""
         n = int(self.ctx.model.n_dofs)
         return self.tol.max_candidates if n <= LARGE_DOFS else min(self.tol.max_candidates, LARGE_LIMIT)
+
+
+@dataclass(frozen=True)
+class Plan:
+    """What a family will make its candidates from (``data``, its own), and the columns they need: the core
+    gathers every family's needs and solves them in one block (:meth:`Superposition.prefetch`) before the
+    candidates are made (``candidates(problem, plan)``)."""
+
+    needs: Needs
+    data: Any
 
 
 @dataclass(frozen=True)

@@ -20,14 +20,16 @@ from audit.checks.diagnosis.block import (
     SOLVE_COLUMNS,
     Candidate,
     Evaluator,
+    Needs,
     Prediction,
     Search,
     Superposition,
     colmax,
     reaction_rows,
+    unbalanced_joints,
     witness_screen,
 )
-from audit.checks.diagnosis.fit import Problem
+from audit.checks.diagnosis.fit import Plan, Problem
 from audit.context import Context
 from audit.findings import Location, Severity
 from audit.model import AXES, CaseResults, FloatArray, Model
@@ -55,9 +57,12 @@ def load_candidates(
     ``near()`` the member hops from each node to them).  ``residual``: the joint residuals of the reported
     forces when already computed.
 
-    The candidates that a few differing numbers prove wrong are dropped first (:func:`witness_screen`); the
-    responses of the others are solved in blocks of at most ``SOLVE_COLUMNS``, bounded, and only those that
-    may explain the results (or be the closest) are evaluated one by one (:class:`Search`).
+    The candidates that a joint proves wrong are dropped first, with no solve: a joint the reported forces
+    leave unbalanced beyond their allowances (:func:`unbalanced_joints`) can be explained only by a candidate
+    that changes the load there.  Those that a few differing numbers prove wrong go next
+    (:func:`witness_screen`); both in :func:`screen_loads`.  The responses of the others are solved in blocks
+    of at most ``SOLVE_COLUMNS``, bounded, and only those that may explain the results (or be the closest)
+    are evaluated one by one (:class:`Search`).
     """
     search = search if search is not None else Search()
     model, tol = ctx.model, ctx.tolerances
@@ -102,7 +107,9 @@ def load_candidates(
             C[col, j] += coef
     worst = np.full(len(combos), np.inf)  # a candidate left out below is proved not to explain the results
     done = np.zeros(len(combos), dtype=bool)
-    alive = witness_screen(ctx, ev, base, solver, FG, C)
+    # a candidate changes the loads of its own node (and of the target of a move) only
+    changed = [{of_node[col] for col, _coef in terms} | {at_node[col] for col, _coef in terms} for terms in combos]
+    alive = screen_loads(ctx, ev, base, solver, obs, loads, FG, C, changed)
     # the responses of the load columns (0..nl-1) and of the moved loads (the rest) are solved a few groups at
     # a time, a group being one loaded node's load with its moves (every candidate then lies in one group):
     # each group's candidates are bounded and, where the bound allows, evaluated before the next is solved
@@ -199,6 +206,29 @@ def load_candidates(
         )
         j += 1
     return out
+
+
+def screen_loads(
+    ctx: Context,
+    ev: Evaluator,
+    base: Prediction,
+    solver: Superposition,
+    obs: CaseResults,
+    loads: FloatArray,
+    F: Any,
+    C: FloatArray,
+    changed: list[set[int]],
+) -> cm.BoolArray:
+    """(c,) False for each candidate ``base + response(F) @ C[:, j]`` proved unable to explain the results:
+    by a joint (:func:`unbalanced_joints`) outside ``changed[j]``, the nodes whose load it changes, with no
+    solve; then by the witnesses (:func:`witness_screen`) for those left."""
+    change = 2.0 * float(np.max(np.abs(loads).sum(axis=1), initial=0.0))  # a move: off one node, onto another
+    proved = set(unbalanced_joints(ctx, ev, solver, loads, obs, change).tolist())
+    alive = np.array([proved <= nodes for nodes in changed], dtype=bool)
+    if alive.any():
+        live = np.flatnonzero(alive)
+        alive[live] = witness_screen(ctx, ev, base, solver, F, C[:, live])
+    return alive
 
 
 def _columns(C: FloatArray, combos: list[int]) -> list[int]:
@@ -300,14 +330,14 @@ def _factor_code(f: float, rtol: float) -> str:
     return "DX112"
 
 
-def candidates(pb: Problem) -> list[Cause]:
-    """Each suspect loaded node's load at another factor (the whole load, and each component of it), and the
-    load moved to another node: the responses of one block solve."""
+def plan(pb: Problem) -> Plan:
+    """The load columns of :func:`candidates` (``(specs, F)``: what each column is, and its loads) and the
+    unit-force responses on their dofs they combine."""
     model, obs, loads = pb.model, pb.obs, pb.actions.loads
     d = model.dim
     loaded = np.flatnonzero(np.any(loads != 0.0, axis=1))
     if loaded.size == 0:
-        return []
+        return Plan(Needs(), None)
     res = pb.solver.joint_residuals(loads, obs)[0] if obs.has_axial_forces else None
     rank = _load_rank(obs, pb.base, loads, loaded, res)
     loaded = loaded[np.argsort(rank, kind="stable")][: pb.limit]
@@ -337,6 +367,18 @@ def candidates(pb: Problem) -> list[Cause]:
                 c_i.append(c)
                 v_i.append(float(loads[n, a]))
     F = sp.csc_matrix((v_i, (r_i, c_i)), shape=(model.n_dofs, len(specs)))
+    return Plan(Needs(dofs=tuple(int(i) for i in np.unique(F.indices))), (specs, F))
+
+
+def candidates(pb: Problem, planned: Plan | None = None) -> list[Cause]:
+    """Each suspect loaded node's load at another factor (the whole load, and each component of it), and the
+    load moved to another node: the responses of one block solve."""
+    model, loads = pb.model, pb.actions.loads
+    d = model.dim
+    data = (planned if planned is not None else plan(pb)).data
+    if data is None:
+        return []
+    specs, F = data
     # the responses as combinations of unit-force responses on the loaded dofs: one block solve for the dofs
     # not solved before (shared with the supports added and the inclined supports)
     used = np.unique(F.indices)

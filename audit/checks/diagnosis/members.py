@@ -23,13 +23,14 @@ from audit.checks.diagnosis.base import CHECK_ID, RANK_STRUCTURAL, Cause
 from audit.checks.diagnosis.block import (
     Candidate,
     Evaluator,
+    Needs,
     Prediction,
     Search,
     Superposition,
     colmax,
     reaction_rows,
 )
-from audit.checks.diagnosis.fit import Problem
+from audit.checks.diagnosis.fit import Plan, Problem
 from audit.context import Context
 from audit.findings import Location, Severity
 from audit.model import CaseResults, FloatArray
@@ -279,10 +280,16 @@ def _suspects(pb: Problem) -> Any:
     return ranked[miss[ranked] > 0][: pb.limit]
 
 
-def candidates(pb: Problem) -> list[Cause]:
+def plan(pb: Problem) -> Plan:
+    """The suspect members (:func:`_suspects`) and their columns ``z = K⁻¹ b``."""
+    cands = _suspects(pb)
+    return Plan(Needs(members=tuple(int(m) for m in cands)), cands)
+
+
+def candidates(pb: Problem, planned: Plan | None = None) -> list[Cause]:
     """Each suspect member's EA, fitted (its extra axial force t), as one column of the fit."""
     model, solver = pb.model, pb.solver
-    cands = _suspects(pb)
+    cands = (planned if planned is not None else plan(pb)).data
     if cands.size == 0:
         return []
     B, k = solver.B, solver.k

@@ -19,13 +19,14 @@ from audit.checks.diagnosis.base import CHECK_ID, RANK_STRUCTURAL, Cause
 from audit.checks.diagnosis.block import (
     Candidate,
     Evaluator,
+    Needs,
     Prediction,
     Search,
     Superposition,
     colmax,
     reaction_rows,
 )
-from audit.checks.diagnosis.fit import Problem
+from audit.checks.diagnosis.fit import Plan, Problem
 from audit.checks.diagnosis.loads import _force_bounds
 from audit.context import Context
 from audit.findings import Location, Severity
@@ -244,46 +245,20 @@ RULES = (
 )
 
 
-def candidates(pb: Problem) -> list[Cause]:
-    """A support added where the source reports a reaction the model cannot have (its reactions fitted), and
-    each supported node's restraints released (settlements fitted): responses with the existing factor."""
+def plan(pb: Problem) -> Plan:
+    """The nodes of :func:`candidates`: ((node, axes) of each support added, the supported nodes to release,
+    their restraints), with the unit-force responses and the unit settlements they need."""
     model, obs, tol, solver = pb.model, pb.obs, pb.tol, pb.solver
     d = model.dim
-    out: list[Cause] = []
+    added: list[tuple[int, list[int]]] = []
     if obs.has_reactions:
         R = np.nan_to_num(obs.reactions)
         scale = cm.scale_of(R, pb.actions.loads)
         big = np.abs(R) > tol.floor * scale + obs.reaction_quantum
         unsup = np.flatnonzero(~solver.mask & np.any(big, axis=1))[: pb.limit]
-        for node in unsup.tolist():
-            axes = [a for a in range(d) if big[node, a]]
-            dofs = [node * d + a for a in axes]
-            X = solver.dof_columns(dofs)
-            mask = solver.mask.copy()
-            mask[node] = True
-            cols = pb.resp.columns(X, mask=mask)
-            nid = model.node_ids[node]
-            names = tuple(AXES[a] for a in axes)
-
-            def apply(pred: Prediction, th: FloatArray, X: FloatArray = X, mask: Any = mask) -> Prediction:
-                return pred.plus(pb.resp.full(X @ th, mask=mask)) if mask is not None else pred
-
-            out.append(
-                Cause(
-                    code="DX108",
-                    location=Location(node=nid),
-                    rank=RANK_STRUCTURAL,
-                    key=("support-added", node),
-                    apply=apply,
-                    describe=lambda th, nid=nid, names=names: (
-                        f"node {nid} carries a reported reaction along {', '.join(names)} but has no support in the "
-                        "model: the source supported it",
-                        (("node", nid), ("axes", names), ("reaction_added", [float(x) for x in th])),
-                    ),
-                    cols=cols,
-                    plain=lambda th: True,
-                )
-            )
+        added = [(node, [a for a in range(d) if big[node, a]]) for node in unsup.tolist()]
+    nodes = np.zeros(0, dtype=np.int64)
+    ridx = np.zeros(0, dtype=np.int64)
     if model.n_restraints:
         nodes = np.unique(model.restraint_node)
         if obs.has_reactions:
@@ -291,9 +266,49 @@ def candidates(pb: Problem) -> list[Cause]:
             nodes = nodes[np.argsort(-gap, kind="stable")]
         nodes = nodes[: pb.limit]
         ridx = np.flatnonzero(np.isin(model.restraint_node, nodes))
-        S = sp.csc_matrix(pb.ctx.system.U_p[:, ridx])
-        K = pb.ctx.system
-        Ssol = solver.displacements(-(K.K @ S + K.K_springs @ S)) + S.toarray()
+    needs = Needs(
+        dofs=tuple(node * d + a for node, axes in added for a in axes), restraints=tuple(int(r) for r in ridx)
+    )
+    return Plan(needs, (added, nodes, ridx))
+
+
+def candidates(pb: Problem, planned: Plan | None = None) -> list[Cause]:
+    """A support added where the source reports a reaction the model cannot have (its reactions fitted), and
+    each supported node's restraints released (settlements fitted): responses with the existing factor."""
+    model, solver = pb.model, pb.solver
+    d = model.dim
+    out: list[Cause] = []
+    added, nodes, ridx = (planned if planned is not None else plan(pb)).data
+    for node, axes in added:
+        dofs = [node * d + a for a in axes]
+        X = solver.dof_columns(dofs)
+        mask = solver.mask.copy()
+        mask[node] = True
+        cols = pb.resp.columns(X, mask=mask)
+        nid = model.node_ids[node]
+        names = tuple(AXES[a] for a in axes)
+
+        def apply(pred: Prediction, th: FloatArray, X: FloatArray = X, mask: Any = mask) -> Prediction:
+            return pred.plus(pb.resp.full(X @ th, mask=mask)) if mask is not None else pred
+
+        out.append(
+            Cause(
+                code="DX108",
+                location=Location(node=nid),
+                rank=RANK_STRUCTURAL,
+                key=("support-added", node),
+                apply=apply,
+                describe=lambda th, nid=nid, names=names: (
+                    f"node {nid} carries a reported reaction along {', '.join(names)} but has no support in the "
+                    "model: the source supported it",
+                    (("node", nid), ("axes", names), ("reaction_added", [float(x) for x in th])),
+                ),
+                cols=cols,
+                plain=lambda th: True,
+            )
+        )
+    if ridx.size:
+        Ssol = solver.settlements(ridx)
         col_of = {int(r): c for c, r in enumerate(ridx.tolist())}
         for node in nodes.tolist():
             idx = np.flatnonzero(model.restraint_node == node)
