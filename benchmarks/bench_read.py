@@ -4,7 +4,9 @@ Each measurement is a fresh process that reads one file the way ``truss-audit
 check`` does (:func:`audit.sources.load_source`, model and embedded results)
 and prints its seconds; the other tree (``--against``, e.g. the main checkout)
 runs the same child with its own ``PYTHONPATH``.  The trees alternate in one
-run, so that a busy machine slows both alike, and medians are printed.  The
+run, each taking every place in the order in turn (a process right after a
+large one starts slower), so that a busy machine slows all alike; medians are
+printed.  The
 floor is the standard library's ``json.load`` of the same file (no decimal
 texts, no validation): what any reader pays at the least.
 
@@ -45,8 +47,10 @@ print(json.dumps({"seconds": time.perf_counter() - t}))
 
 def _run(tree: Path, path: str, what: str) -> float:
     env = dict(os.environ, PYTHONPATH=str(tree))
+    path = str(Path(path).resolve())
+    # run in the tree itself: `python -c` puts the working directory first on sys.path, before PYTHONPATH
     out = subprocess.run(
-        [sys.executable, "-c", _CHILD, path, what], env=env, capture_output=True, text=True, check=True
+        [sys.executable, "-c", _CHILD, path, what], env=env, cwd=tree, capture_output=True, text=True, check=True
     ).stdout
     seconds: float = json.loads(out.strip().splitlines()[-1])["seconds"]
     return seconds
@@ -66,8 +70,8 @@ def main(argv: list[str] | None = None) -> int:
         runs.append(("floor", ROOT, "floor"))
     for path in args.files:
         times: dict[str, list[float]] = {label: [] for label, _, _ in runs}
-        for _ in range(args.repeat):
-            for label, tree, what in runs:
+        for r in range(args.repeat):
+            for label, tree, what in runs[r % len(runs) :] + runs[: r % len(runs)]:  # each in every place in turn
                 times[label].append(_run(tree, path, what))
         row = {label: round(statistics.median(ts), 3) for label, ts in times.items()}
         print(json.dumps({"file": Path(path).name, "repeat": args.repeat, "median_seconds": row}))
