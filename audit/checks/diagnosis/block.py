@@ -231,7 +231,8 @@ class Superposition:
         memo: dict[tuple[int, int], Any] = self.__dict__.setdefault("_residuals", {})
         key = (id(loads), id(obs))
         if key not in memo:
-            memo[key] = (loads, obs, joint_residuals(self.model, loads, obs))  # the pair is held: ids stay valid
+            # the pair is held, so that the ids stay valid
+            memo[key] = (loads, obs, joint_residuals(self.model, loads, obs, self.B))
         return memo[key][2]
 
     def _free_rows(self) -> Any:
