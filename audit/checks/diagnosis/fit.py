@@ -164,13 +164,27 @@ class Responses:
             fR = self.flat["R"]
             val = s.forces_on_rows(X, fR)
             if extra_N is not None:
-                BR = s.B[:, fR].tocsr()
+                BR = s.columns_of(fR)
                 for m, col in zip(np.asarray(extra_N[0]).tolist(), np.asarray(extra_N[1]).tolist(), strict=True):
                     val[:, col] += BR[m].toarray().ravel()
             if F is not None:
                 val -= F[fR].toarray() if sp.issparse(F) else F[fR]
             m = s.mask if mask is None else mask
             val[~m[fR // d]] = 0.0
+            out[pR] = val
+        return out
+
+    def load_term(self, F: Any, mask: Any = None) -> FloatArray:
+        """(n_rows, c) the change on the rows of load increments F (n_dofs, c) themselves, the displacements
+        apart: ``−F`` on the reactions at the supported nodes (``mask``), so that ``columns(X, F=F) =
+        columns(X) + load_term(F)``."""
+        out = np.zeros((len(self.rows), F.shape[1]))
+        pR = self.pos["R"]
+        if pR.size:
+            fR = self.flat["R"]
+            val = -(F[fR].toarray() if sp.issparse(F) else np.asarray(F)[fR])
+            m = self.solver.mask if mask is None else mask
+            val[~m[fR // self.rows.dim]] = 0.0
             out[pR] = val
         return out
 
