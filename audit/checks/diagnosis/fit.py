@@ -344,16 +344,23 @@ def screen(
     for (idx, M), fixed in ((cols_w, False), (fixed_w, True)):
         if idx.size == 0:
             continue
-        Mk = M[keep]
-        Mp = Mk - Q @ (Q.T @ Mk) if Q.shape[1] else Mk
+        # the same operations as Mk − Q(QᵀMk), r − Mp, r − Mp·t written into one scratch block where it is
+        # ours (never into the pool's matrix M)
+        Mk = M if keep.all() else M[keep]
+        if Q.shape[1]:
+            Mp = Q @ (Q.T @ Mk)
+            np.subtract(Mk, Mp, out=Mp)
+        else:
+            Mp = Mk
         if fixed:
-            res = rk[:, None] - Mp
+            res = np.subtract(rk[:, None], Mp, out=Mp if Mp is not M else None)
         else:
             nn = np.einsum("ij,ij->j", Mp, Mp)
             with np.errstate(all="ignore"):
                 t = np.where(nn > 0, (Mp.T @ rk) / nn, 0.0)
-            res = rk[:, None] - Mp * t
-        score = np.max(np.abs(res), axis=0) if res.shape[0] else np.zeros(idx.size)
+            res = np.multiply(Mp, t, out=Mp if Mp is not M else None)
+            np.subtract(rk[:, None], res, out=res)
+        score = np.max(np.abs(res, out=res), axis=0) if res.shape[0] else np.zeros(idx.size)
         order = np.argsort(score, kind="stable")
         take = order[:SCREEN].tolist() + [int(j) for j in order[SCREEN:] if score[j] <= 1.0][: SCREEN_FITTING - SCREEN]
         picked.update(int(idx[j]) for j in take)
