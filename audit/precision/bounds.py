@@ -32,6 +32,7 @@ estimate (``estimated_digits``), not as proven.
 
 from __future__ import annotations
 
+import itertools
 import math
 
 import mpmath
@@ -77,8 +78,11 @@ def input_precision(model: Model) -> tuple[float, str]:
     if loads:
         consider(min(text_quantum(t) / abs(float(t)) for t in set(loads)), "loads")
     if model.coords_text and model.n_members:
-        cache = {t: text_quantum(t) for t in {t for row in model.coords_text for t in row}}
-        q = np.array([[cache[t] for t in row] for row in model.coords_text])
+        flat = list(itertools.chain.from_iterable(model.coords_text))
+        cache = {t: text_quantum(t) for t in set(flat)}
+        q = np.fromiter(map(cache.__getitem__, flat), dtype=np.float64, count=len(flat)).reshape(
+            len(model.coords_text), -1
+        )
         qn = np.sqrt((q**2).sum(axis=1))
         consider(float(np.min((qn[model.conn[:, 0]] + qn[model.conn[:, 1]]) / model.lengths())), "coordinates")
     return best, src
@@ -181,7 +185,8 @@ def case_record(
     m = ex.s_idx.size
     if m:
         p = ref.p[:, i]
-        N = (ex.EA * p * (10 ** (ex.kx - ex.k_ea - sc.ku - e10N) << (-sc.S - e2N))) // ex.L2
+        fac = 10 ** (ex.kx - ex.k_ea - sc.ku - e10N) << (-sc.S - e2N)
+        N = ((ex.EA * p * fac) if fac != 1 else ex.EA * p) // ex.L2
         if st.has_temp:
             N = N - ex.EA * st.temp[:, i] * (10 ** (-ex.k_ea - st.kat - st.kc - e10N) << (-e2N))
         if st.has_lerr:
@@ -193,8 +198,8 @@ def case_record(
     Nf = axial.to_float()
     sup = np.zeros(nn, dtype=bool)
     sup[system.supported_nodes] = True
-    R = -ref.rm[:, :, i]
-    R[~sup] = 0
+    R = np.zeros((nn, d), dtype=object)
+    R[sup] = -ref.rm[sup, :, i]  # reactions at the supported nodes only (0 elsewhere)
     reac = Fixed(R, sc.e10f, sc.e2f)
     Rf = reac.to_float()
     mag = ref.mag[:, :, i : i + 1]
@@ -342,13 +347,15 @@ def _reported(
         blk[~np.isfinite(blk)] = up_i[~np.isfinite(blk)]
         drep[ex.rn] = blk
     ints, conv_err = float_exact_to_scale(drep, sc.ku, sc.S)
-    u_free = ints.copy()[:, :, None]
+    u_free = ints[:, :, None]  # assemble_u copies it
     w = np.zeros((ex.rn.size, d, 1), dtype=object)
     if ex.rn.size:
         wf = np.einsum("ncb,nb->nc", ex.Zpinv, drep[ex.rn] - up_i)
         w = round_scaled(wf, sc.ku, sc.S, scale_float(sc.ku, sc.S))[:, :, None]
     um = assemble_u(ex, u_free, w, it_up)
-    dev = ints_to_float(ints[:, :, None] - um, -sc.ku, -sc.S)[:, :, 0]
+    dev = np.zeros((nn, d))  # u_free is the reported ints: they differ only at restrained nodes
+    if ex.rn.size:
+        dev[ex.rn] = ints_to_float(ints[ex.rn][:, :, None] - um[ex.rn], -sc.ku, -sc.S)[:, :, 0]
     dev = np.abs(dev) + conv_err * float(mpmath.mpf(10) ** -sc.ku * mpmath.mpf(2) ** -sc.S)
     _r, _rm, mag, _eff, _err, _p = exact_residual(ex, sc, rhs[:, :, i : i + 1], rhs_err[:, :, i : i + 1], um)
     umf = ints_to_float(um[:, :, 0], -sc.ku, -sc.S)

@@ -53,7 +53,7 @@ def decimal_ints(texts: Sequence[str]) -> tuple[ObjArray, int]:
     p = 10**k
     as_int = {t: f.numerator * (p // f.denominator) for t, f in parsed.items()}
     out = np.empty(len(texts), dtype=object)
-    out[:] = [as_int[t] for t in texts]
+    out[:] = list(map(as_int.__getitem__, texts))
     return out, k
 
 
@@ -96,6 +96,9 @@ def ints_to_float(ints: ObjArray, e10: int, e2: int) -> FloatArray:
     fast = _small_ints_to_float(a, e10, e2)
     if fast is not None:
         return fast
+    mixed = _mixed_ints_to_float(a, e10, e2)
+    if mixed is not None:
+        return mixed
     shift = 0
     if e10 > 0:
         a = a * 10**e10
@@ -115,7 +118,7 @@ _EXACT_POW10 = 22
 
 
 def _small_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
-    """The fast path of :func:`ints_to_float` when |e10| <= 22 and (e10 = 0 or every |int| <= 2^53), else None.
+    """The fast path of :func:`ints_to_float` when |e10| <= 22 and (e10 = 0 or every |int| < 2^53), else None.
 
     Then each int and 10^|e10| are float64 exactly, and one IEEE multiplication or division is correctly
     rounded (IEEE 754-2019, §4.3); the scaling by 2^e2 is exact unless the result leaves the normal range,
@@ -127,7 +130,7 @@ def _small_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
         f = a.astype(np.float64)  # correctly rounded (PyLong_AsDouble)
     except OverflowError:
         return None
-    if e10 and not float(np.max(np.abs(f))) <= 2.0**53:  # |f| <= 2^53 iff |int| <= 2^53 (monotone rounding)
+    if e10 and not float(np.max(np.abs(f))) < 2.0**53:  # |f| < 2^53 implies |int| < 2^53 (2^53 + 1 rounds to 2^53)
         return None
     if e10 > 0:
         f = f * 10.0**e10
@@ -142,6 +145,63 @@ def _small_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
                 return None
         f = np.ldexp(f, e2)
     return f
+
+
+#: relative error bound of :func:`abs_to_float_bound` (four roundings of 2^-53 each, rounded up)
+ABS_BOUND_REL = 2.0**-50
+
+
+def abs_to_float_bound(ints: ObjArray, e10: int, e2: int) -> FloatArray:
+    """|ints|·10^e10·2^e2 in float64 within a relative :data:`ABS_BOUND_REL`, for error bounds (not results).
+
+    ``float(int)`` is correctly rounded (relative error ≤ 2^-53), the scale ``10.0**e10·2.0**e2`` of
+    :func:`scale_float` is within two roundings (C ``pow``, then an exact power of two) and the product adds
+    one more (IEEE 754-2019, §4.3; common practice: a relative error below 4·2^-53 that the bounds' safety
+    factors cover).  That holds only while every product stays in the normal range; otherwise (and for an
+    integer beyond the float range or a scale beyond 2^±900) it is :func:`ints_to_float`, correctly rounded.
+    One float multiplication instead of two object-array operations when 10^e10 is not an integer.
+    """
+    a = np.asarray(ints, dtype=object)
+    conv = scale_float(e10, e2)
+    if a.size and conv is not None:
+        try:
+            f = np.abs(a.astype(np.float64))
+        except OverflowError:
+            f = None
+        if f is not None:
+            with np.errstate(over="ignore", under="ignore"):  # out of range: checked just below
+                out = f * conv
+            nz = out[out != 0.0]
+            if not nz.size or (float(nz.min()) >= 2.0**-1000 and float(nz.max()) <= 2.0**1000):
+                return out
+    return np.abs(ints_to_float(a, e10, e2))
+
+
+def _mixed_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray | None:
+    """:func:`ints_to_float` when only some entries reach 2^53 (0 < |e10| <= 22): the fast path for the others.
+
+    Each entry's value is the same either way: an int below 2^53 divided (multiplied) by 10^|e10| <= 10^22
+    is correctly rounded by one IEEE operation, and the exact path's ``(a·2^shift) // 10^|e10|`` (64 bits more
+    than needed) cannot land on a rounding midpoint for such an entry: its distance to one is at least
+    ``2^-54·5^-22·|a| > 2^-117·|a|`` unless it is one exactly.  None when the split does not apply.
+    """
+    if not 0 < abs(e10) <= _EXACT_POW10 or a.size < 2:
+        return None
+    try:
+        f = a.astype(np.float64)
+    except OverflowError:
+        return None
+    big = np.abs(f) >= 2.0**53
+    if big.all() or not big.any():
+        return None
+    small = ~big
+    lo = _small_ints_to_float(a[small], e10, e2)
+    if lo is None:
+        return None
+    out = np.empty(a.shape)
+    out[small] = lo
+    out[big] = ints_to_float(a[big], e10, e2)
+    return out
 
 
 def _huge_ints_to_float(a: ObjArray, e2: int) -> FloatArray:
@@ -241,9 +301,19 @@ _INT = np.frompyfunc(int, 1, 1)
 
 
 def float_exact_to_scale(x: FloatArray, k10: int, s2: int) -> tuple[ObjArray, FloatArray]:
-    """floor(x·10^k10·2^s2) as ints (exact when possible) and the per-entry conversion error in units of the scale."""
+    """floor(x·10^k10·2^s2) as ints (exact when possible) and the per-entry conversion error in units of the scale.
+
+    The error is 1 wherever the scaled float has bits below the unit (``exponent − 53 + s2 < 0``), else 0.
+    With ``k10 = 0`` and every nonzero ``x·2^s2`` within ``2^±1000`` the scaling by a power of two is exact in
+    float64, and so is ``floor``: the ints are then :func:`float_to_ints` of that float (the same integers).
+    """
     x = np.asarray(x, dtype=np.float64)
     m, e = np.frexp(x)
+    if k10 == 0 and x.size and np.all(np.isfinite(x)):
+        nz = np.abs(x[x != 0.0])
+        if not nz.size or (math.frexp(float(nz.min()))[1] + s2 > -1000 and math.frexp(float(nz.max()))[1] + s2 < 1000):
+            err = np.where(e.astype(np.int64) - 53 + s2 < 0, 1.0, 0.0)
+            return float_to_ints(np.floor(np.ldexp(x, s2))), err
     mi = (m * 2.0**53).astype(np.int64).astype(object) * 10**k10
     sh = (e.astype(np.int64) - 53 + s2).astype(object)
     out = np.empty(x.shape, dtype=object)

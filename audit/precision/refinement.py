@@ -37,10 +37,13 @@ from audit.model import FloatArray, Model
 from audit.solve import System
 
 from .exact_model import ExactModel
-from .exact_numbers import ObjArray, ints_to_float, round_scaled, scale_float
+from .exact_numbers import ObjArray, float_to_ints, ints_to_float, round_scaled, scale_float
 from .residual import Scales, apply_K_err, exact_residual, reduce_residual
 from .states import States
 from .steering import OutOfRangeError, SteeringResidual, dd_add, ints_to_dd
+
+#: placeholder for an exact residual's arrays released before the next one is computed
+_DROPPED: ObjArray = np.zeros(0, dtype=object)
 
 
 @dataclass(frozen=True)
@@ -48,6 +51,8 @@ class Iterate:
     u: ObjArray  #: (n_nodes, dim, ns) displacements at the u scale, meeting every restraint exactly
     w: ObjArray  #: (n_rn, dim, ns) free-direction coordinates at restrained nodes
     up: ObjArray  #: (n_rn, dim, ns) prescribed part at restrained nodes
+    #: (n_nodes, dim, ns) u as float64 exactly at the free nodes (the start rounded on the float grid), else None
+    uf: FloatArray | None = None
 
 
 def prescribed_part(model: Model, system: System, ex: ExactModel, st: States, sc: Scales) -> ObjArray:
@@ -85,13 +90,41 @@ def assemble_u(ex: ExactModel, u_free: ObjArray, w: ObjArray, up: ObjArray) -> O
 def start_iterate(ex: ExactModel, sc: Scales, U0: FloatArray, up: ObjArray) -> Iterate:
     """Iterate from float displacements (n_nodes, dim, ns), projected exactly onto the restraints."""
     conv = scale_float(sc.ku, sc.S)
-    u_free = round_scaled(U0, sc.ku, sc.S, conv)
+    grid = None  # round_scaled's float path: rint(U0·conv), which the ints equal exactly
+    if (
+        conv is not None
+        and math.isfinite(conv)
+        and conv > 0
+        and float(np.max(np.abs(U0), initial=0.0)) * conv < 2.0**1000
+    ):
+        grid = np.rint(U0 * conv)
+    u_free = float_to_ints(grid) if grid is not None else round_scaled(U0, sc.ku, sc.S, conv)
     w = np.zeros((ex.rn.size, ex.dim, U0.shape[2]), dtype=object)
     if ex.rn.size:
         upf = ints_to_float(up, -sc.ku, -sc.S) if up.size else np.zeros(up.shape)
         wf = np.einsum("ncb,nbs->ncs", ex.Zpinv, U0[ex.rn] - upf)
         w = round_scaled(wf, sc.ku, sc.S, conv)
-    return Iterate(assemble_u(ex, u_free, w, up), w, up)
+    return Iterate(assemble_u(ex, u_free, w, up), w, up, grid)
+
+
+def _start_dd(ex: ExactModel, it: Iterate) -> tuple[FloatArray, FloatArray] | None:
+    """``ints_to_dd(it.u, 0)`` (None out of range) from the float start: the same floats, no big-int conversion.
+
+    At free nodes u is the integer-valued float ``uf`` exactly (hi = uf, lo = 0); restrained nodes are converted
+    from the exact ints as :func:`~audit.precision.steering.ints_to_dd` does.
+    """
+    if it.uf is None:
+        return SteeringResidual.to_dd(it.u)
+    hi = it.uf + 0.0  # as ints_to_float of the ints: −0.0 (rint of a small negative) becomes +0.0
+    lo = np.zeros(hi.shape)
+    if ex.rn.size:
+        try:
+            hi[ex.rn], lo[ex.rn] = ints_to_dd(it.u[ex.rn], 0)
+        except OutOfRangeError:
+            return None
+    if hi.size and not float(np.max(np.abs(hi))) < 2.0**1000:
+        return None
+    return hi, lo
 
 
 @dataclass(frozen=True)
@@ -206,7 +239,7 @@ def refine(
         near = bool(history) and (history[-1] <= target or predicted <= target)
         if steer is not None and not (near or stall or k == maxit) and nxt > 10 * floor:
             if udd is None:
-                udd = steer.to_dd(u)
+                udd = _start_dd(ex, it) if u is it.u else steer.to_dd(u)
             fast = steer.evaluate(u, udd, with_bound=False) if udd is not None else None
             if fast is None:
                 steer = None
@@ -215,6 +248,7 @@ def refine(
             eff = _reduce_float(ex, fast[0])
             steered += 1
         else:
+            r = rm = p = _DROPPED  # the last exact residual's arrays go before the next one is formed (peak memory)
             r, rm, mag, eff, err, p = exact_residual(ex, sc, rhs, rhs_err, u, with_err=False)
             exact_count += 1
         t_res += time.perf_counter() - t0

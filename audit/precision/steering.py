@@ -90,11 +90,21 @@ class OutOfRangeError(ValueError):
 
 
 def ints_to_dd(a: ObjArray, e2: int) -> tuple[FloatArray, FloatArray]:
-    """hi + lo ≈ a·2^e2 with |error| ≤ 2^-105·|a·2^e2| (hi correctly rounded, lo the rounded remainder)."""
+    """hi + lo ≈ a·2^e2 with |error| ≤ 2^-105·|a·2^e2| (hi correctly rounded, lo the rounded remainder).
+
+    The remainder is formed only where ``hi ≠ 0``: a correctly rounded ``hi`` is 0 only for ``a = 0``, whose
+    ``lo`` is 0 (sparse right-hand sides, e.g. loads at a few nodes, then cost little).
+    """
     hi = ints_to_float(a, 0, 0)
     if hi.size and not float(np.max(np.abs(hi))) < 2.0**1000:
         raise OutOfRangeError("an integer beyond the float range")
-    lo = ints_to_float(a - float_to_ints(hi), 0, e2)
+    nz = hi != 0.0
+    if nz.all():
+        lo = ints_to_float(a - float_to_ints(hi), 0, e2)
+    else:
+        lo = np.zeros(hi.shape)
+        if nz.any():
+            lo[nz] = ints_to_float(a[nz] - float_to_ints(hi[nz]), 0, e2)
     return np.ldexp(hi, e2), lo
 
 
