@@ -85,12 +85,25 @@ def assemble(model: Model, member_stiffness: FloatArray | None = None, *, spring
 
 
 def compatibility_matrix(model: Model) -> sp.csr_matrix:
-    """B (n_members, n_dofs): elongation = B @ u.  Its transpose is the equilibrium matrix."""
+    """B (n_members, n_dofs): elongation = B @ u.  Its transpose is the equilibrium matrix.
+
+    Row m holds ``−n`` at the start node's dofs and ``+n`` at the end node's (n the unit vector start→end),
+    written straight into CSR with each row's columns in increasing order (the lower-numbered node first):
+    the canonical matrix a COO → CSR conversion gives, without its sort."""
     n = model.directions()
-    dofs = member_dofs(model)
-    vals = np.hstack([-n, n])
-    rows = np.repeat(np.arange(model.n_members, dtype=np.int64), dofs.shape[1])
-    return sp.csr_matrix((vals.ravel(), (rows, dofs.ravel())), shape=(model.n_members, model.n_dofs))
+    d = model.dim
+    m = model.n_members
+    start, end = model.conn[:, 0], model.conn[:, 1]
+    sign = np.where(start < end, 1.0, -1.0)[:, None]  # −1: the end node comes first in the row
+    ax = np.arange(d, dtype=np.int64)
+    indices = np.empty((m, 2 * d), dtype=np.int64)
+    indices[:, :d] = np.minimum(start, end)[:, None] * d + ax
+    indices[:, d:] = np.maximum(start, end)[:, None] * d + ax
+    data = np.empty((m, 2 * d))
+    data[:, :d] = -n * sign
+    data[:, d:] = n * sign
+    indptr = np.arange(0, 2 * d * m + 1, 2 * d, dtype=np.int64)
+    return sp.csr_matrix((data.ravel(), indices.ravel(), indptr), shape=(m, model.n_dofs))
 
 
 def initial_elongation(model: Model, temperature: FloatArray, length_error: FloatArray) -> FloatArray:

@@ -26,9 +26,9 @@ Usage::
     python benchmarks/bench_diagnosis.py --sizes grid2d:1e4 grid2d:1e5 --kinds ea load --repeat 3
     python benchmarks/bench_diagnosis.py --sizes grid2d:1e6 --repeat 1 --json /tmp/diag_1e6.json  # heavy: alone
 
-``--baseline DIR`` also times another version of the check on the same context: ``DIR`` holds its
-``diagnosis.py`` and ``_diagnosis_causes.py`` (e.g. written with ``git show REV:audit/checks/diagnosis.py``),
-and the rows say whether both versions gave the same findings.
+``--baseline DIR`` also times another version of the check on the same context, alternately with this one:
+``DIR`` holds its ``diagnosis.py`` and ``_diagnosis_causes.py`` (e.g. written with ``git show
+REV:audit/checks/diagnosis.py``), and the rows say whether both versions gave the same findings.
 
 ``--tree DIR`` does the same for a source tree of the package layout (``DIR/audit/checks/diagnosis/``, e.g.
 the main checkout, or ``git archive REV | tar -x -C DIR``): its diagnosis package is loaded beside this one
@@ -319,16 +319,25 @@ def bench_one(
         factorize_system(model, ctx.system)
         factor_times.append(time.perf_counter() - t0)
     row: dict[str, Any] = {}
-    if baseline is not None:
-        btimes, bsolves, bcols, bouts = time_check(baseline, ctx, repeat)
+    runs: list[tuple[list[float], list[float], int, Any]] = []
+    if baseline is not None:  # baseline and this tree in turn, so that the machine's load falls on both alike
+        bruns = []
+        for _ in range(repeat):
+            bruns.append(time_check(baseline, ctx, 1))
+            runs.append(time_check(diagnosis, ctx, 1))
+        btimes = [r[0][0] for r in bruns]
+        bouts = bruns[-1][3]
         row = {
             "baseline_s": [round(t, 3) for t in btimes],
             "baseline_median_s": round(statistics.median(btimes), 3),
-            "baseline_solve_median_s": round(statistics.median(bsolves), 3),
-            "baseline_columns_solved": bcols,
+            "baseline_solve_median_s": round(statistics.median(r[1][0] for r in bruns), 3),
+            "baseline_columns_solved": bruns[-1][2],
             "baseline_findings": [(f.code, f.location.label(), f.message) for o in bouts for f in o.findings],
         }
-    times, solves, cols, outs = time_check(diagnosis, ctx, repeat)
+        times, solves = [r[0][0] for r in runs], [r[1][0] for r in runs]
+        cols, outs = runs[-1][2], runs[-1][3]
+    else:
+        times, solves, cols, outs = time_check(diagnosis, ctx, repeat)
     findings = [(f.code, f.location.label()) for o in outs for f in o.findings]
     if baseline is not None:
         row["same_findings"] = row.pop("baseline_findings") == [

@@ -135,6 +135,25 @@ def test_stiffness_is_b_transpose_k_b(doc: dict[str, Any]) -> None:
 
 
 @PROPERTY
+@given(any_truss)
+def test_compatibility_matrix_is_the_canonical_coo_assembly(doc: dict[str, Any]) -> None:
+    """B written straight into CSR equals, entry for entry and in its stored order, the matrix scipy's COO →
+    CSR conversion makes of the definition: row m has −n at the start node's dofs and +n at the end node's
+    (elongation = n · (u_end − u_start); common practice)."""
+    model = to_model(doc)
+    B = compatibility_matrix(model)
+    d = model.dim
+    n = model.directions()
+    rows = np.repeat(np.arange(model.n_members), 2 * d)
+    cols = np.hstack([model.conn[:, :1] * d + np.arange(d), model.conn[:, 1:] * d + np.arange(d)]).ravel()
+    ref = sps.csr_matrix((np.hstack([-n, n]).ravel(), (rows, cols)), shape=(model.n_members, model.n_dofs))
+    assert B.has_sorted_indices
+    assert np.array_equal(B.indptr, ref.indptr)
+    assert np.array_equal(B.indices, ref.indices)
+    assert np.array_equal(B.data, ref.data)
+
+
+@PROPERTY
 @given(loaded_truss)
 def test_reactions_balance_the_loads(doc: dict[str, Any]) -> None:
     """Σ reactions + Σ loads = 0 and Σ r × (reaction + load) = 0, for every case, heat and settlement included."""

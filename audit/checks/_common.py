@@ -336,7 +336,9 @@ def support_span(model: Model, node: int, with_springs: bool = True) -> FloatArr
     return np.ascontiguousarray(vt[:rank].T)
 
 
-def equilibrium_residual(model: Model, loads: FloatArray, forces: FloatArray, reactions: FloatArray) -> FloatArray:
+def equilibrium_residual(
+    model: Model, loads: FloatArray, forces: FloatArray, reactions: FloatArray, B: Any = None
+) -> FloatArray:
     """(n_nodes, dim) joint residuals ``f + r − Bᵀ N`` (zero at every joint in equilibrium).
 
     A member in tension N pulls each end joint towards the other end: the force on its start joint is
@@ -344,7 +346,7 @@ def equilibrium_residual(model: Model, loads: FloatArray, forces: FloatArray, re
     compatibility matrix B (method of joints; common practice, e.g. Hibbeler, *Structural Analysis*,
     §3.4; section number recalled from memory).  NaN forces or reactions make the affected joint components NaN.
     """
-    B = stiffness.compatibility_matrix(model)
+    B = stiffness.compatibility_matrix(model) if B is None else B  # B: the caller's, when it holds it
     n_ok = np.nan_to_num(forces, nan=0.0)
     internal = (B.T @ n_ok).reshape(model.n_nodes, model.dim)
     res = loads + np.nan_to_num(reactions, nan=0.0) - internal

@@ -27,6 +27,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
+import scipy.sparse as sp
 
 from audit import stiffness
 from audit.checks import _common as cm
@@ -66,10 +67,12 @@ def run(ctx: Context) -> list[CheckOutcome]:
 
 
 def compatible_forces(
-    model: Model, cr: CaseResults, free_elongation: FloatArray
+    model: Model, cr: CaseResults, free_elongation: FloatArray, B: sp.csr_matrix | None = None
 ) -> tuple[FloatArray, FloatArray, FloatArray]:
-    """(N_c, quantum of N_c, mechanical elongation) per member from the reported displacements (NaN if unknown)."""
-    B = stiffness.compatibility_matrix(model)
+    """(N_c, quantum of N_c, mechanical elongation) per member from the reported displacements (NaN if unknown).
+
+    ``B``: the model's compatibility matrix when the caller holds it already."""
+    B = stiffness.compatibility_matrix(model) if B is None else B
     U = cr.displacements.reshape(-1)
     elong = B @ np.nan_to_num(U)
     unknown = (abs(B) @ np.isnan(U).astype(np.float64)) > 0

@@ -20,6 +20,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
+import scipy.sparse as sp
 
 from audit import stiffness
 from audit.checks import _common as cm
@@ -62,15 +63,19 @@ def run(ctx: Context) -> list[CheckOutcome]:
     return cm.per_case(ctx, CHECK_ID, lambda cid, cr: _check_case(ctx, cid, cr))
 
 
-def joint_residuals(model: Model, loads: FloatArray, cr: CaseResults) -> tuple[FloatArray, FloatArray, FloatArray]:
+def joint_residuals(
+    model: Model, loads: FloatArray, cr: CaseResults, B: sp.csr_matrix | None = None
+) -> tuple[FloatArray, FloatArray, FloatArray]:
     """(residual, quantum, magnitude), each (n_nodes, dim); NaN residual where a term is not reported.
 
     quantum = |B|ᵀ q_N + q_r (the terms' rounding quanta summed), magnitude = |f| + |B|ᵀ |N| + |r|.
+    ``B``: the model's compatibility matrix when the caller holds it already.
     """
+    B = stiffness.compatibility_matrix(model) if B is None else B
     R = cm.effective_reactions(model, cr)
     N = cr.axial_forces if cr.has_axial_forces else np.full(model.n_members, np.nan)
-    res = cm.equilibrium_residual(model, loads, N, R)
-    absBT = abs(stiffness.compatibility_matrix(model)).T
+    res = cm.equilibrium_residual(model, loads, N, R, B)
+    absBT = abs(B).T
     qN = cm.quantum_or_zero(cr.axial_force_quantum, N)
     qR = cm.quantum_or_zero(cr.reaction_quantum, R)
     shape = (model.n_nodes, model.dim)

@@ -129,7 +129,7 @@ class Superposition:
                 rhs = rhs.toarray() if sp.issparse(rhs) else np.asarray(rhs)
                 out[:, c0 : c0 + rhs.shape[1]] = self.T @ self.factor.solve(rhs).reshape(rhs.shape)
             else:
-                rhs = Fc[free].toarray() if sp.issparse(Fc) else np.asarray(Fc)[free]
+                rhs = self._free_part(Fc) if sp.issparse(Fc) else np.asarray(Fc)[free]
                 out[free, c0 : c0 + rhs.shape[1]] = self.factor.solve(rhs).reshape(rhs.shape)
             c0 += width
         return out
@@ -231,8 +231,24 @@ class Superposition:
         memo: dict[tuple[int, int], Any] = self.__dict__.setdefault("_residuals", {})
         key = (id(loads), id(obs))
         if key not in memo:
-            memo[key] = (loads, obs, joint_residuals(self.model, loads, obs))  # the pair is held: ids stay valid
+            # the pair is held, so that the ids stay valid
+            memo[key] = (loads, obs, joint_residuals(self.model, loads, obs, self.B))
         return memo[key][2]
+
+    def _free_part(self, F: Any) -> FloatArray:
+        """The free rows of sparse load columns as a dense column-major block (the layout the factor's solve
+        reads), written entry by entry: no sparse row selection and no copy into column-major order."""
+        free = self._free_rows()
+        if not hasattr(self, "_free_pos"):
+            self._free_pos = np.full(self.T.shape[0], -1, dtype=np.int64)
+            self._free_pos[free] = np.arange(free.size)
+        Fo = sp.coo_matrix(F)
+        Fo.sum_duplicates()
+        at = self._free_pos[Fo.row]
+        keep = at >= 0
+        rhs = np.zeros((free.size, F.shape[1]), order="F")
+        rhs[at[keep], Fo.col[keep]] = Fo.data[keep]
+        return rhs
 
     def _free_rows(self) -> Any:
         """The global dof of each reduced dof when T is a pure selection (one 1 per row and column), else None."""
@@ -247,9 +263,20 @@ class Superposition:
                     self._free = free
         return self._free
 
+    def columns_of(self, rows_R: Any) -> Any:
+        """B's columns of the flat dof indices ``rows_R`` (CSR, all members), once per distinct ``rows_R`` (the
+        fit's responses read the same reaction rows for every family)."""
+        memo: dict[bytes, Any] = self.__dict__.setdefault("_columns_of", {})
+        key = np.asarray(rows_R, dtype=np.int64).tobytes()
+        if key not in memo:
+            if not hasattr(self, "_Bc"):
+                self._Bc = self.B.tocsc()  # column slices of CSC are cheap
+            memo[key] = self._Bc[:, np.asarray(rows_R, dtype=np.int64)].tocsr()
+        return memo[key]
+
     def forces_on_rows(self, X: FloatArray, rows_R: Any) -> FloatArray:
         """``Bᵀ (k∘(B X))`` on the flat dof indices ``rows_R``, from the members that meet them only."""
-        BR = self.B[:, rows_R].tocsr()
+        BR = self.columns_of(rows_R)
         members = np.flatnonzero(np.diff(BR.indptr))
         if members.size == 0:
             return np.zeros((len(rows_R), X.shape[1]))
@@ -287,7 +314,7 @@ class Superposition:
         """
         c = X.shape[1]
         colmax = np.zeros(c)
-        BR = self.B[:, rows_R].tocsr() if len(rows_R) else None
+        BR = self.columns_of(rows_R) if len(rows_R) else None
         btn = np.zeros((len(rows_R), c))
         num = np.zeros(c)
         den = np.zeros(c)

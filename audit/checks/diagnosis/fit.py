@@ -164,13 +164,27 @@ class Responses:
             fR = self.flat["R"]
             val = s.forces_on_rows(X, fR)
             if extra_N is not None:
-                BR = s.B[:, fR].tocsr()
+                BR = s.columns_of(fR)
                 for m, col in zip(np.asarray(extra_N[0]).tolist(), np.asarray(extra_N[1]).tolist(), strict=True):
                     val[:, col] += BR[m].toarray().ravel()
             if F is not None:
                 val -= F[fR].toarray() if sp.issparse(F) else F[fR]
             m = s.mask if mask is None else mask
             val[~m[fR // d]] = 0.0
+            out[pR] = val
+        return out
+
+    def load_term(self, F: Any, mask: Any = None) -> FloatArray:
+        """(n_rows, c) the change on the rows of load increments F (n_dofs, c) themselves, the displacements
+        apart: ``−F`` on the reactions at the supported nodes (``mask``), so that ``columns(X, F=F) =
+        columns(X) + load_term(F)``."""
+        out = np.zeros((len(self.rows), F.shape[1]))
+        pR = self.pos["R"]
+        if pR.size:
+            fR = self.flat["R"]
+            val = -(F[fR].toarray() if sp.issparse(F) else np.asarray(F)[fR])
+            m = self.solver.mask if mask is None else mask
+            val[~m[fR // self.rows.dim]] = 0.0
             out[pR] = val
         return out
 
@@ -330,16 +344,23 @@ def screen(
     for (idx, M), fixed in ((cols_w, False), (fixed_w, True)):
         if idx.size == 0:
             continue
-        Mk = M[keep]
-        Mp = Mk - Q @ (Q.T @ Mk) if Q.shape[1] else Mk
+        # the same operations as Mk − Q(QᵀMk), r − Mp, r − Mp·t written into one scratch block where it is
+        # ours (never into the pool's matrix M)
+        Mk = M if keep.all() else M[keep]
+        if Q.shape[1]:
+            Mp = Q @ (Q.T @ Mk)
+            np.subtract(Mk, Mp, out=Mp)
+        else:
+            Mp = Mk
         if fixed:
-            res = rk[:, None] - Mp
+            res = np.subtract(rk[:, None], Mp, out=Mp if Mp is not M else None)
         else:
             nn = np.einsum("ij,ij->j", Mp, Mp)
             with np.errstate(all="ignore"):
                 t = np.where(nn > 0, (Mp.T @ rk) / nn, 0.0)
-            res = rk[:, None] - Mp * t
-        score = np.max(np.abs(res), axis=0) if res.shape[0] else np.zeros(idx.size)
+            res = np.multiply(Mp, t, out=Mp if Mp is not M else None)
+            np.subtract(rk[:, None], res, out=res)
+        score = np.max(np.abs(res, out=res), axis=0) if res.shape[0] else np.zeros(idx.size)
         order = np.argsort(score, kind="stable")
         take = order[:SCREEN].tolist() + [int(j) for j in order[SCREEN:] if score[j] <= 1.0][: SCREEN_FITTING - SCREEN]
         picked.update(int(idx[j]) for j in take)

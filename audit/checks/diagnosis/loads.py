@@ -382,19 +382,19 @@ def candidates(pb: Problem, planned: Plan | None = None) -> list[Cause]:
     # the responses as combinations of unit-force responses on the loaded dofs: one block solve for the dofs
     # not solved before (shared with the supports added and the inclined supports)
     used = np.unique(F.indices)
-    X = pb.solver.dof_columns(used) @ F[used].toarray()
-    cols = pb.resp.columns(X, F=F)
+    # the responses are linear in the loads: on the rows, the unit-force columns combined; in full (the
+    # displacements, and the load column made dense) only when a set with the cause is checked in full
+    Z, Fu = pb.solver.dof_columns(used), F[used].toarray()
+    cols = pb.resp.columns(Z) @ Fu + pb.resp.load_term(F)
     out: list[Cause] = []
     funit = model.units.force
     for c, (kind, n, ax, tgt) in enumerate(specs):
         if not np.any(cols[:, c]):
             continue
         nid = model.node_ids[n]
-        x = X[:, c]  # a view: X is never written
 
-        def apply(pred: Prediction, th: FloatArray, x: FloatArray = x, c: int = c) -> Prediction:
-            # the load column made dense only when a set with this cause is checked in full
-            return pred.plus(pb.resp.full(x, f=F[:, [c]].toarray().ravel()), float(th[0]))
+        def apply(pred: Prediction, th: FloatArray, c: int = c) -> Prediction:
+            return pred.plus(pb.resp.full(Z @ Fu[:, c], f=F[:, [c]].toarray().ravel()), float(th[0]))
 
         if kind == "move":
             assert tgt is not None

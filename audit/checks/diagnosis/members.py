@@ -72,7 +72,7 @@ def member_candidates(
     model, tol = ctx.model, ctx.tolerances
     compat_ea = np.full(model.n_members, np.nan)
     if obs.has_displacements and obs.has_axial_forces:
-        Nc, qc, mech = compatible_forces(model, obs, d0)
+        Nc, qc, mech = compatible_forces(model, obs, d0, solver.B)
         j = cm.judge(
             obs.axial_forces,
             Nc,
@@ -263,7 +263,7 @@ def _suspects(pb: Problem) -> Any:
     model, obs, tol, base = pb.model, pb.obs, pb.tol, pb.base
     d0 = pb.actions.free_elongation
     if obs.has_displacements and obs.has_axial_forces:
-        Nc, qc, _mech = compatible_forces(model, obs, d0)
+        Nc, qc, _mech = compatible_forces(model, obs, d0, pb.solver.B)
         j = cm.judge(
             obs.axial_forces,
             Nc,
