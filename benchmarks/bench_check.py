@@ -77,6 +77,7 @@ def _timed(cmd: list[str], timeout: float, tree: Path = ROOT) -> tuple[float, fl
             timeout=timeout,
             env=env,
             check=False,
+            cwd=tree,  # `python -m` puts the working directory first on sys.path: run in the tree measured
         )
         secs, kib = Path(tfile).read_text(encoding="ascii").split()[-2:]
     finally:

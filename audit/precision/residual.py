@@ -35,7 +35,9 @@ loops over 30-bit digits.  What the object arrays cost beyond their
 arithmetic is released as it goes: the forces are formed and scattered one
 component at a time, temporaries are dropped as soon as used, ``r`` is ``rm``
 without springs, and the refinement drops one exact residual before forming
-the next (peak memory of ``check`` on that grid 1.37 GiB -> 1.22 GiB).
+the next (on that grid, ``check`` at 30 digits: the precision stage's peak
+1,400 -> 1,195 MiB, the whole process's 1,399 -> 1,261 MiB, medians of 3 by
+``benchmarks/bench_check.py``).
 
 The residual's floats are in units of :attr:`Scales.unit` (a power of ten
 times a power of two chosen from the forces); the bounds are evaluated in
