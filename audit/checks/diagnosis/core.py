@@ -42,7 +42,12 @@ explain the results.  Only the candidates that may (bound ≤ 1), and, while non
 closest one, are evaluated over every reported quantity; every finding is the one an exhaustive evaluation
 gives (:class:`audit.checks._diagnosis_block.Search`).  When few quantities differ (``LOCAL_LIMIT``) and
 there are more loaded nodes than ``max_candidates``, loads equally suspect by their joint residuals are
-tried nearest first (member hops from the joints with a differing quantity).
+tried nearest first (member hops from the joints with a differing quantity).  A load candidate is dropped
+with no solve when a joint whose load it keeps is left unbalanced by the reported forces beyond the sum of
+its members' allowances (:func:`audit.checks.diagnosis.block.unbalanced_joints`), and before its solve when
+a few differing numbers prove it wrong (``witness_screen``).  The multi-cause fit's families first say which
+columns they need (``plan``) and all are solved in one block (``Superposition.prefetch``): a direct solve
+reads the whole factor once per call, so one wide call costs far less than one per family.
 """
 
 from __future__ import annotations
