@@ -17,6 +17,7 @@ replaced by a placeholder before comparing, and everything else must match.
 from __future__ import annotations
 
 import hashlib
+import importlib.util
 import io
 import json
 import os
@@ -248,3 +249,44 @@ def test_thread_count_does_not_change_the_report(
 ) -> None:
     one, two = thread_runs
     assert one[kind] == two[kind]
+
+
+def _generator() -> Any:
+    spec = importlib.util.spec_from_file_location("bench_generate_det", ROOT / "benchmarks" / "generate.py")
+    assert spec is not None
+    assert spec.loader is not None
+    module = importlib.util.module_from_spec(spec)
+    sys.modules["bench_generate_det"] = module
+    spec.loader.exec_module(module)
+    return module
+
+
+@pytest.mark.slow
+def test_large_model_gives_the_same_json_run_after_run(tmp_path: Path) -> None:
+    """Three fresh processes on a grid of about 2·10⁴ members, 2 threads, no MKL_CBWR of the caller's.
+
+    Large enough that PARDISO runs its threaded kernels: without a conditional
+    numerical reproducibility branch (Intel oneMKL Developer Guide, Linux,
+    "Reproducibility Conditions") three such runs gave three different JSON
+    reports (the condition estimate and the backward error moved in their last
+    digits); ``audit.linsolve`` sets ``MKL_CBWR=AUTO`` before MKL is loaded.
+    """
+    model = tmp_path / "grid.json"
+    _generator().write(str(model), "grid2d", 20000)
+    env = {k: v for k, v in os.environ.items() if k != "MKL_CBWR"}
+    env.update({"PYTHONWARNINGS": "ignore", "OMP_NUM_THREADS": "2", "MKL_NUM_THREADS": "2"})
+    env["PYTHONPATH"] = os.pathsep.join([str(ROOT), env.get("PYTHONPATH", "")])
+    reports = []
+    for i in range(3):
+        out = tmp_path / f"run{i}.json"
+        proc = subprocess.run(
+            [sys.executable, "-m", "audit", "check", str(model), "--quiet", "--json", str(out)],
+            capture_output=True,
+            timeout=300,
+            env=env,
+            cwd=tmp_path,
+            check=False,
+        )
+        assert proc.returncode in (0, 1), proc.stderr.decode()
+        reports.append(out.read_bytes())
+    assert reports[0] == reports[1] == reports[2]
