@@ -265,10 +265,14 @@ def _release(handle: _PardisoHandle) -> None:
         handle.call(-1)
 
 
-#: from this many right-hand sides on, PARDISO solves them as one block.  Below it, column by
-#: column is faster: 2D grid of 10⁶ members, 2 cores, one column 0.18 s, a block of 2 columns
-#: 0.84 s, of 4 1.24 s, of 8 1.28 s (benchmarks/, MKL 2026.2)
-_BLOCK_RHS = 8
+#: from this many right-hand sides on, PARDISO solves them as one block, below it column by column.
+#: With MKL's reproducibility branch (MKL_CBWR=AUTO, set by _reproducible_mkl) a column alone
+#: costs about what a block of 2-4 does: 2D grid of 480,800 members, 2 cores (AMD EPYC), MKL
+#: 2026.2.1, one column 0.13 s, a block of 2 columns 0.18 s, of 4 0.20 s, of 8 0.25 s, so that 4
+#: columns one by one took 0.69 s against 0.20 s as a block.  Without the branch: 0.043, 0.13, 0.14,
+#: 0.15 s.  (An earlier machine, 2D grid of 10⁶ members without the branch: one column 0.18 s, a
+#: block of 4 1.24 s; hence the 8 this replaces.)
+_BLOCK_RHS = 2
 
 
 class PardisoFactor:
