@@ -228,7 +228,9 @@ def _reproducible_mkl() -> None:
     fixed number of threads, results are reproducible from run to run.  AUTO
     keeps the processor's own code path: measured on the 3D lattice of
     197,190 members, factorise 6.2-6.3 s with AUTO against 6.6-8.1 s unset and
-    11.2-12.9 s with COMPATIBLE (README, Performance).  MKL reads the
+    11.2-12.9 s with COMPATIBLE; but a solve of one column costs about 3x
+    (0.13 s against 0.043 s, 2D grid of 480,800 members), which is why
+    :data:`_BLOCK_RHS` is 2 (README, Performance).  MKL reads the
     variable when it is loaded, so it is set before pypardiso loads it; a
     process that loaded MKL earlier keeps its own mode.
     """
