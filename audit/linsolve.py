@@ -229,8 +229,8 @@ def _reproducible_mkl() -> None:
     keeps the processor's own code path: measured on the 3D lattice of
     197,190 members, factorise 6.2-6.3 s with AUTO against 6.6-8.1 s unset and
     11.2-12.9 s with COMPATIBLE; but a solve of one column costs about 3x
-    (0.13 s against 0.043 s, 2D grid of 480,800 members), which is why
-    :data:`_BLOCK_RHS` is 2 (README, Performance).  MKL reads the
+    (0.13 s against 0.043 s, 2D grid of 480,800 members; see
+    :data:`_BLOCK_RHS` and README, Performance).  MKL reads the
     variable when it is loaded, so it is set before pypardiso loads it; a
     process that loaded MKL earlier keeps its own mode.
     """
@@ -268,13 +268,14 @@ def _release(handle: _PardisoHandle) -> None:
 
 
 #: from this many right-hand sides on, PARDISO solves them as one block, below it column by column.
-#: With MKL's reproducibility branch (MKL_CBWR=AUTO, set by _reproducible_mkl) a column alone
-#: costs about what a block of 2-4 does: 2D grid of 480,800 members, 2 cores (AMD EPYC), MKL
-#: 2026.2.1, one column 0.13 s, a block of 2 columns 0.18 s, of 4 0.20 s, of 8 0.25 s, so that 4
-#: columns one by one took 0.69 s against 0.20 s as a block.  Without the branch: 0.043, 0.13, 0.14,
-#: 0.15 s.  (An earlier machine, 2D grid of 10⁶ members without the branch: one column 0.18 s, a
-#: block of 4 1.24 s; hence the 8 this replaces.)
-_BLOCK_RHS = 2
+#: Measured on a 2D grid of 480,800 members, 2 cores (AMD EPYC), MKL 2026.2.1: without MKL's
+#: reproducibility branch one column 0.043 s, a block of 2 columns 0.13 s, of 4 0.14 s, of 8
+#: 0.15 s; with MKL_CBWR=AUTO (set by _reproducible_mkl) 0.13, 0.18, 0.20 and 0.25 s, so that
+#: blocks from 2 columns on would be faster (the certificate stage 1.26-1.30 s -> 0.82-0.86 s),
+#: but they raised the whole check's peak memory from 1,220-1,230 MiB to 1,280 MiB (2 runs of 3), 1.50x the
+#: floor's, the limit of the target; so the blocks start at 8 (an earlier machine, 2D grid of 10⁶
+#: members, no branch: one column 0.18 s, a block of 4 1.24 s, of 8 1.28 s).
+_BLOCK_RHS = 8
 
 
 class PardisoFactor:
