@@ -12,31 +12,18 @@ then move both top joints by (+δ, −δ).  Reactions: 10 kN up at each pin.
 
 from __future__ import annotations
 
-import importlib.util
 import json
-import sys
 import xml.etree.ElementTree as ET
 from pathlib import Path
 from typing import Any
 
 import pytest
+from bench_generator import generator
 
 from audit import batch
 
 E, A_POST, A_OTHER, L = 2.1e8, 2.5e-3, 1.2e-3, 1.5
 DELTA = 10.0 * L / (E * A_POST)
-
-GENERATE = Path(__file__).resolve().parent.parent / "benchmarks" / "generate.py"
-
-
-def _generator() -> Any:
-    spec = importlib.util.spec_from_file_location("bench_generate", GENERATE)
-    assert spec is not None
-    assert spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules["bench_generate"] = module
-    spec.loader.exec_module(module)
-    return module
 
 
 def panel(post_force_reported: float = -10.0) -> dict[str, Any]:
@@ -85,7 +72,7 @@ def models(tmp_path_factory: pytest.TempPathFactory) -> dict[str, str]:
     broken_doc["members"][4]["end"] = "99"  # no such node
     broken = d / "a_broken.json"
     broken.write_text(json.dumps(broken_doc), encoding="utf-8")
-    gen = _generator()
+    gen = generator()
     grid = d / "d_grid.json"
     facts = gen.write(str(grid), "grid2d", 100, perturb=2, seed=3)
     return {"good": str(good), "wrong": str(wrong), "broken": str(broken), "grid": str(grid), "facts": facts}

@@ -17,7 +17,6 @@ replaced by a placeholder before comparing, and everything else must match.
 from __future__ import annotations
 
 import hashlib
-import importlib.util
 import io
 import json
 import os
@@ -29,6 +28,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from bench_generator import generator
 
 from audit import cli
 
@@ -251,16 +251,6 @@ def test_thread_count_does_not_change_the_report(
     assert one[kind] == two[kind]
 
 
-def _generator() -> Any:
-    spec = importlib.util.spec_from_file_location("bench_generate_det", ROOT / "benchmarks" / "generate.py")
-    assert spec is not None
-    assert spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules["bench_generate_det"] = module
-    spec.loader.exec_module(module)
-    return module
-
-
 @pytest.mark.slow
 def test_large_model_gives_the_same_json_run_after_run(tmp_path: Path) -> None:
     """Three fresh processes on a grid of about 2·10⁴ members, 2 threads, no MKL_CBWR of the caller's.
@@ -272,7 +262,7 @@ def test_large_model_gives_the_same_json_run_after_run(tmp_path: Path) -> None:
     digits); ``audit.linsolve`` sets ``MKL_CBWR=AUTO`` before MKL is loaded.
     """
     model = tmp_path / "grid.json"
-    _generator().write(str(model), "grid2d", 20000)
+    generator().write(str(model), "grid2d", 20000)
     env = {k: v for k, v in os.environ.items() if k != "MKL_CBWR"}
     env.update({"PYTHONWARNINGS": "ignore", "OMP_NUM_THREADS": "2", "MKL_NUM_THREADS": "2"})
     env["PYTHONPATH"] = os.pathsep.join([str(ROOT), env.get("PYTHONPATH", "")])

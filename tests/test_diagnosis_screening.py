@@ -102,6 +102,22 @@ def _unscreened(mp: pytest.MonkeyPatch) -> None:
     mp.setattr(db.Evaluator, "lower_bounds", lambda self, sub, pmax: np.zeros(next(iter(pmax.values())).size))
 
 
+def _case_p(kind: str) -> tuple[Any, Any, Any, Any, Any]:
+    """Case P of the grid with the ``kind`` error injected: model, context, reported case, prediction, actions."""
+    src, kw, _expected = _source(kind)
+    model = model_of(GRID)
+    ctx = context(model, parse(model, results_text(model, {"P": src}, digits=9, **kw)))
+    assert ctx.results is not None
+    assert ctx.solution is not None
+    cr, sol = ctx.results.case("P"), ctx.solution.case("P")
+    assert cr is not None
+    assert sol is not None
+    base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
+    actions = diagnosis.cm.case_actions(model, "P")
+    assert actions is not None
+    return model, ctx, cr, base, actions
+
+
 def _findings(out: Any) -> list[tuple[str, str, str]]:
     return [(f.code, f.location.label(), f.message) for f in out.findings]
 
@@ -122,17 +138,7 @@ def test_screened_search_names_what_the_exhaustive_search_names(kind: str, monke
 @pytest.mark.parametrize("kind", ["ea", "missing_load", "five"])
 def test_every_load_candidate_the_screens_drop_fails_the_exact_check(kind: str) -> None:
     """The screens' verdicts against the exact figure of every load candidate (no bounds, no screen)."""
-    src, kw, _expected = _source(kind)
-    model = model_of(GRID)
-    ctx = context(model, parse(model, results_text(model, {"P": src}, digits=9, **kw)))
-    assert ctx.results is not None
-    assert ctx.solution is not None
-    cr, sol = ctx.results.case("P"), ctx.solution.case("P")
-    assert cr is not None
-    assert sol is not None
-    base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
-    actions = diagnosis.cm.case_actions(model, "P")
-    assert actions is not None
+    model, ctx, cr, base, actions = _case_p(kind)
     masks: list[Any] = []
     real = dcl.screen_loads
 
@@ -163,17 +169,7 @@ def test_the_joint_screen_drops_every_load_candidate_of_five_force_errors_withou
     of their members, and no single load change (one node, or two for a move) reaches them all; so every load
     candidate is dropped before any solve (the witness screen is not called), and the exhaustive evaluation
     confirms that none of them explains the results (the test above)."""
-    src, kw, _expected = _source("five")
-    model = model_of(GRID)
-    ctx = context(model, parse(model, results_text(model, {"P": src}, digits=9, **kw)))
-    assert ctx.results is not None
-    assert ctx.solution is not None
-    cr, sol = ctx.results.case("P"), ctx.solution.case("P")
-    assert cr is not None
-    assert sol is not None
-    base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
-    actions = diagnosis.cm.case_actions(model, "P")
-    assert actions is not None
+    model, ctx, cr, base, actions = _case_p("five")
     ev = db.Evaluator(model, actions, cr, ctx.tolerances, base)
     solver = db.Superposition(ctx)
     proved = db.unbalanced_joints(ctx, ev, solver, actions.loads, cr, 0.0)
@@ -194,16 +190,6 @@ def test_the_joint_screen_drops_every_load_candidate_of_five_force_errors_withou
 def test_the_joint_screen_proves_nothing_when_the_forces_balance() -> None:
     """A member's EA changed in the source: its forces still balance the model's loads at every joint
     (the method of joints; common practice), so no joint is proved unbalanced."""
-    src, kw, _expected = _source("ea")
-    model = model_of(GRID)
-    ctx = context(model, parse(model, results_text(model, {"P": src}, digits=9, **kw)))
-    assert ctx.results is not None
-    assert ctx.solution is not None
-    cr, sol = ctx.results.case("P"), ctx.solution.case("P")
-    assert cr is not None
-    assert sol is not None
-    base = db.Prediction(sol.displacements, sol.axial_forces, sol.reactions)
-    actions = diagnosis.cm.case_actions(model, "P")
-    assert actions is not None
+    model, ctx, cr, base, actions = _case_p("ea")
     ev = db.Evaluator(model, actions, cr, ctx.tolerances, base)
     assert db.unbalanced_joints(ctx, ev, db.Superposition(ctx), actions.loads, cr, 0.0).size == 0

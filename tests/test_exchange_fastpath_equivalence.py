@@ -21,9 +21,7 @@ from __future__ import annotations
 
 import contextlib
 import dataclasses
-import importlib.util
 import json
-import sys
 from collections.abc import Iterator
 from decimal import Decimal
 from pathlib import Path
@@ -31,6 +29,7 @@ from typing import Any
 
 import numpy as np
 import pytest
+from bench_generator import generator
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -143,20 +142,10 @@ def _assert_results_of_file(model: Any, raw: bytes) -> None:
             assert np.isnan(quanta[~seen]).all()
 
 
-def _generate() -> Any:
-    spec = importlib.util.spec_from_file_location("bench_generate_eq", ROOT / "benchmarks" / "generate.py")
-    assert spec is not None
-    assert spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules["bench_generate_eq"] = module
-    spec.loader.exec_module(module)
-    return module
-
-
 @pytest.mark.parametrize(("kind", "members", "digits"), [("grid2d", 60, 10), ("lattice3d", 80, 6), ("grid2d", 300, 17)])
 def test_generated_models(tmp_path: Path, kind: str, members: int, digits: int) -> None:
     path = tmp_path / "model.json"
-    _generate().write(str(path), kind, members, digits=digits)
+    generator().write(str(path), kind, members, digits=digits)
     raw = path.read_bytes()
     assert jsonread._fast_tree(raw) is not None  # the fast path is taken, so the comparison means something
     with _compiled(True):
