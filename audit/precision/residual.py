@@ -56,7 +56,7 @@ import numpy as np
 
 from audit.model import FloatArray
 
-from .exact_model import ExactModel
+from .exact_model import ExactModel, per_c_group
 from .exact_numbers import ObjArray, abs_to_float_bound, ints_to_float
 from .states import States
 
@@ -173,7 +173,7 @@ def _apply_K(
         del du
         a10 = ex.kx - ex.k_ea - sc.ku - sc.e10f
         b2 = -ex.Q - sc.S - sc.e2f
-        cc = ex.c * (10**a10 << b2) if (a10 or b2) else ex.c
+        cc = per_c_group(ex, ex.c, lambda c: c * (10**a10 << b2)) if (a10 or b2) else ex.c
         q = cc[:, None] * p
         Ku = np.zeros((nn, d, ns), dtype=object)
         for a in range(d):

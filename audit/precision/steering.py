@@ -23,7 +23,7 @@ import numpy as np
 
 from audit.model import FloatArray
 
-from .exact_model import ExactModel
+from .exact_model import ExactModel, per_c_group
 from .exact_numbers import ObjArray, float_to_ints, ints_to_float
 from .residual import Scales
 
@@ -85,6 +85,11 @@ def dd_mul_f(ah: FloatArray, al: FloatArray, b: FloatArray) -> tuple[FloatArray,
     return hi, y - (hi - x)
 
 
+def _v_float(ex: ExactModel) -> FloatArray:
+    """``ex.v.astype(np.float64)``, from the int64 copy when there is one (the same correctly rounded floats)."""
+    return ex.v64.astype(np.float64) if ex.v64 is not None else ex.v.astype(np.float64)
+
+
 class OutOfRangeError(ValueError):
     """A number the double-double evaluation cannot hold (the caller takes the exact residual)."""
 
@@ -117,10 +122,14 @@ class SteeringResidual:
         m = ex.s_idx.size
         a10 = ex.kx - ex.k_ea - sc.ku - sc.e10f
         b2 = -ex.Q - sc.S - sc.e2f
-        cc = ex.c * (10**a10 << b2) if (a10 or b2) else ex.c
-        self.c_hi, self.c_lo = ints_to_dd(cc, -sc.Y) if m else (np.zeros(0), np.zeros(0))
+        fac = 10**a10 << b2
+        if m:  # once per group of equal c (ExactModel.c_groups): the same floats member by member
+            c_hl = per_c_group(ex, ex.c, lambda c: np.stack(ints_to_dd(c * fac if fac != 1 else c, -sc.Y), axis=1))
+            self.c_hi, self.c_lo = np.ascontiguousarray(c_hl[:, 0]), np.ascontiguousarray(c_hl[:, 1])
+        else:
+            self.c_hi, self.c_lo = np.zeros(0), np.zeros(0)
         self.c_sh, self.c_sl = split(self.c_hi)
-        self.v = ex.v.astype(np.float64) if m else np.zeros((0, d))
+        self.v = _v_float(ex) if m else np.zeros((0, d))
         self.rhs_hi, self.rhs_lo = ints_to_dd(rhs, -sc.Y)
         # member ends sorted by node, padded to (nodes, D): column j holds each node's j-th end
         ends = np.concatenate([ex.e_idx, ex.s_idx]).astype(np.int64)
@@ -143,7 +152,7 @@ class SteeringResidual:
             return False  # a hub node: the padded layout would be too large
         if ex.s_idx.size:
             try:
-                vi = ex.v.astype(np.float64)
+                vi = _v_float(ex)
             except OverflowError:
                 return False
             if float(np.max(np.abs(vi))) > 2.0**26:
