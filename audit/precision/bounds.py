@@ -185,8 +185,15 @@ def case_record(
     m = ex.s_idx.size
     if m:
         p = ref.p[:, i]
-        fac = 10 ** (ex.kx - ex.k_ea - sc.ku - e10N) << (-sc.S - e2N)
-        N = ((ex.EA * p * fac) if fac != 1 else ex.EA * p) // ex.L2
+        # EA·p·10^k·2^b // L² with the power of two as a shift (the same integers, cheaper than a multiplication)
+        k10, b2 = ex.kx - ex.k_ea - sc.ku - e10N, -sc.S - e2N
+        t = ex.EA * p
+        if k10:
+            t = t * 10**k10
+        if b2:
+            t = np.left_shift(t, b2)
+        N = t // ex.L2
+        del t
         if st.has_temp:
             N = N - ex.EA * st.temp[:, i] * (10 ** (-ex.k_ea - st.kat - st.kc - e10N) << (-e2N))
         if st.has_lerr:

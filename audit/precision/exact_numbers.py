@@ -107,6 +107,11 @@ def ints_to_float(ints: ObjArray, e10: int, e2: int) -> FloatArray:
         mixed = _mixed_ints_to_float(a, e10, e2, f0)
         if mixed is not None:
             return mixed
+    return _exact_ints_to_float(a, e10, e2)
+
+
+def _exact_ints_to_float(a: ObjArray, e10: int, e2: int) -> FloatArray:
+    """The exact path of :func:`ints_to_float` (no fast path tried)."""
     shift = 0
     if e10 > 0:
         a = a * 10**e10
@@ -212,7 +217,7 @@ def _mixed_ints_to_float(a: ObjArray, e10: int, e2: int, f: FloatArray | None = 
         return None
     out = np.empty(a.shape)
     out[small] = lo
-    out[big] = ints_to_float(a[big], e10, e2)
+    out[big] = _exact_ints_to_float(a[big], e10, e2)  # what ints_to_float does with them: none is below 2^53
     return out
 
 
