@@ -56,10 +56,13 @@ def test_grouped_coefficients_are_ea_over_l_cubed(doc: dict[str, Any], monkeypat
     first, group = ex.c_groups
     assert first.size < model.n_members // 4
     # the same integers as without the groups
-    monkeypatch.setattr(exact_model_mod, "_pair_groups", lambda EA, L2: None)
+    monkeypatch.setattr(exact_model_mod, "_pair_groups", lambda *_a: None)
     plain = exact_model(model, P, False)
     assert plain.c_groups is None
     assert [int(x) for x in plain.c] == [int(x) for x in ex.c]
+    for name in ("cf", "kf_member", "vf"):  # floats from the groups and the int64 copies: bit for bit
+        assert np.array_equal(getattr(ex, name), getattr(plain, name)), name
+    assert np.array_equal(ex.vf, ints_to_float(ex.v, -ex.kx, 0))
     # against the closed form E·A/L³ (sympy, exact L = sqrt(L²)): c·10^(3kx − k_ea)·2^−Q within η
     for k in range(model.n_members):
         L = sympy.sqrt(sympy.Integer(int(ex.L2[k]))) / sympy.Integer(10) ** ex.kx

@@ -103,31 +103,35 @@ def _null_basis(C: list[list[int]], dim: int) -> list[list[int]] | None:
     return [n]
 
 
-def _vectors(X: ObjArray, s_idx: np.ndarray, e_idx: np.ndarray) -> tuple[ObjArray, ObjArray, np.ndarray | None]:
+def _vectors(
+    X: ObjArray, s_idx: np.ndarray, e_idx: np.ndarray
+) -> tuple[ObjArray, ObjArray, np.ndarray | None, np.ndarray | None]:
     """Member vectors v = X_end − X_start and squared lengths L² (exact), in int64 when the coordinates allow.
 
-    The third item is v in int64 (None when computed in Python ints).
+    The last two items are v and L² in int64 (None when computed in Python ints).
     """
     m, d = s_idx.size, X.shape[1]
     if not m:
-        return np.zeros((0, d), dtype=object), np.zeros(0, dtype=object), None
+        return np.zeros((0, d), dtype=object), np.zeros(0, dtype=object), None, None
     try:
         Xi = X.astype(np.int64)
     except OverflowError:
         Xi = None
     if Xi is not None and (not Xi.size or int(np.max(np.abs(Xi))) < 2**29):  # |v| < 2^30, L² < 3·2^60: exact
         vi = Xi[e_idx] - Xi[s_idx]
-        return vi.astype(object), (vi * vi).sum(axis=1).astype(object), vi
+        l2 = (vi * vi).sum(axis=1)
+        return vi.astype(object), l2.astype(object), vi, l2
     v = X[e_idx] - X[s_idx]
-    return v, (v * v).sum(axis=1), None
+    return v, (v * v).sum(axis=1), None, None
 
 
-def _per_distinct(vals: ObjArray, fn: Callable[[int], int]) -> ObjArray:
-    """fn applied to each entry of an integer array, evaluated once per distinct value."""
-    try:
-        keys = vals.astype(np.int64)
-    except OverflowError:
-        keys = None
+def _per_distinct(vals: ObjArray, fn: Callable[[int], int], keys: np.ndarray | None = None) -> ObjArray:
+    """fn applied to each entry of an integer array, evaluated once per distinct value (``keys``: vals in int64)."""
+    if keys is None:
+        try:
+            keys = vals.astype(np.int64)
+        except OverflowError:
+            keys = None
     if keys is not None:
         uniq, inv = np.unique(keys, return_inverse=True)
         out = np.empty(uniq.size, dtype=object)
@@ -139,7 +143,7 @@ def _per_distinct(vals: ObjArray, fn: Callable[[int], int]) -> ObjArray:
     return res
 
 
-def _pair_groups(EA: ObjArray, L2: ObjArray) -> tuple[np.ndarray, np.ndarray] | None:
+def _pair_groups(EA: ObjArray, L2: ObjArray, l2: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray] | None:
     """Members with equal (E·A, L²): (first member of each group, group of each member), or None.
 
     None when the integers do not fit int64 keys or when the groups would save little (more than m/4 of
@@ -151,7 +155,7 @@ def _pair_groups(EA: ObjArray, L2: ObjArray) -> tuple[np.ndarray, np.ndarray] | 
         return None
     try:
         ea = EA.astype(np.int64)
-        l2 = L2.astype(np.int64)
+        l2 = L2.astype(np.int64) if l2 is None else l2
     except OverflowError:
         return None
     if int(ea.min()) < 0 or int(l2.min()) < 0:
@@ -169,7 +173,9 @@ def per_c_group(ex: ExactModel, c: ObjArray, fn: Callable[[ObjArray], ObjArray])
     """``fn(c)`` for an elementwise ``fn`` of a per-member array that is a function of ``ex.c`` alone.
 
     With :attr:`ExactModel.c_groups` ``fn`` is evaluated on one member per group and gathered: the same
-    values entry by entry, since members of one group have equal ``c``.
+    values entry by entry, since members of one group have equal ``c``.  The representatives hold every
+    distinct value of the array, so a decision ``fn`` takes on the whole array (a range check, a fast path
+    for all entries or none: :func:`~audit.precision.exact_numbers.ints_to_float`) is the same on them.
     """
     if ex.c_groups is None:
         return fn(c)
@@ -183,7 +189,7 @@ def exact_model(model: Model, P: int, with_temperature: bool) -> ExactModel:
     X, kx = decimal_ints(ctext)
     X = X.reshape(model.n_nodes, d)
     s_idx, e_idx = model.conn[:, 0].copy(), model.conn[:, 1].copy()
-    v, L2, v64 = _vectors(X, s_idx, e_idx)
+    v, L2, v64, l2_64 = _vectors(X, s_idx, e_idx)
     Et, ok_e = texts_or_repr(model.E_text, model.E)
     At, ok_a = texts_or_repr(model.A_text, model.A)
     E, kE = decimal_ints(Et)
@@ -199,19 +205,30 @@ def exact_model(model: Model, P: int, with_temperature: bool) -> ExactModel:
     R = max(0, P + 12 - (3 * bmin) // 2)
     if m:
         num, sh = 1 << (Q + R), 2 * R
-        g = _per_distinct(L2, lambda x: num // math.isqrt((x * x * x) << sh))
+        g = _per_distinct(L2, lambda x: num // math.isqrt((x * x * x) << sh), l2_64)
     else:
         g = np.zeros(0, dtype=object)
-    groups = _pair_groups(EA, L2) if m else None
+    groups = _pair_groups(EA, L2, l2_64) if m else None
     c = EA * g if groups is None else (EA[groups[0]] * g[groups[0]])[groups[1]]  # equal (EA, L²): equal c
-    vf = ints_to_float(v, -kx, 0) if m else np.zeros((0, d))
+    if not m:
+        vf = np.zeros((0, d))
+    elif v64 is not None and kx <= 22:  # ints_to_float's fast path: |v| < 2^30 is a float exactly, one division
+        vf = v64.astype(np.float64)
+        vf = vf / 10.0**kx if kx else vf
+    else:
+        vf = ints_to_float(v, -kx, 0)
     Lf = np.sqrt((vf * vf).sum(axis=1))
-    EAf = ints_to_float(EA, -k_ea, 0) if m else np.zeros(0)
+    if not m:
+        EAf = np.zeros(0)
+    elif groups is not None:  # equal E·A in a group: the representatives hold every distinct value
+        EAf = ints_to_float(EA[groups[0]], -k_ea, 0)[groups[1]]
+    else:
+        EAf = ints_to_float(EA, -k_ea, 0)
     Qh = P + 12 + (bmax + 1) // 2
     h = None
     if with_temperature and m:
         num_h = 1 << (2 * Qh)
-        h = _per_distinct(L2, lambda x: math.isqrt(num_h // x))
+        h = _per_distinct(L2, lambda x: math.isqrt(num_h // x), l2_64)
     # restrained nodes and their integer bases
     dtext, ok_d = texts_or_repr([t for row in model.restraint_dir_text for t in row], model.restraint_dir)
     Craw, _kd = decimal_ints(dtext)
