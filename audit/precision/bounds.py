@@ -211,7 +211,8 @@ def case_record(
     Rf = reac.to_float()
     mag = ref.mag[:, :, i : i + 1]
     sig_norm, plain_norm = _norm_scaled(cert, system, ex, mag)
-    den = (Kabs @ np.abs(uf).reshape(-1)).reshape(nn, d) + np.abs(ints_to_float(rhs[:, :, i], sc.e10f, sc.e2f))
+    fabs = np.abs(ints_to_float(rhs[:, :, i], sc.e10f, sc.e2f))  # |f| in float, for both backward errors
+    den = (Kabs @ np.abs(uf).reshape(-1)).reshape(nn, d) + fabs
     in_range = unit_in_range(unit)
     omega_own = _omega(ex, mag[:, :, 0] * unit, den) if in_range else None
     reason = ""
@@ -269,6 +270,7 @@ def case_record(
         bound_ax,
         bound_re,
         ref.it.up[:, :, i : i + 1],
+        fabs,
     )
     return CasePrecision(
         case_id=cid,
@@ -317,8 +319,9 @@ def _reported(
     bound_ax: FloatArray | None,
     bound_re: FloatArray | None,
     it_up: ObjArray,
+    fabs: FloatArray,
 ) -> ReportedProof:
-    """Proof status of the reported results of state ``i`` against the exact solution."""
+    """Proof status of the reported results of state ``i`` against the exact solution (``fabs``: |f| in float)."""
     cid = st.ids[i]
     cr = results.case(cid) if results is not None else None
     if cr is None:
@@ -366,7 +369,7 @@ def _reported(
     dev = np.abs(dev) + conv_err * float(mpmath.mpf(10) ** -sc.ku * mpmath.mpf(2) ** -sc.S)
     _r, _rm, mag, _eff, _err, _p = exact_residual(ex, sc, rhs[:, :, i : i + 1], rhs_err[:, :, i : i + 1], um)
     umf = ints_to_float(um[:, :, 0], -sc.ku, -sc.S)
-    den = (Kabs @ np.abs(umf).reshape(-1)).reshape(nn, d) + np.abs(ints_to_float(rhs[:, :, i], sc.e10f, sc.e2f))
+    den = (Kabs @ np.abs(umf).reshape(-1)).reshape(nn, d) + fabs
     if not unit_in_range(unit):
         return ReportedProof("not_established", OUT_OF_RANGE, None, None, None, None, qs)
     omega = _omega(ex, mag[:, :, 0] * unit, den)
