@@ -55,6 +55,8 @@ def test_grouped_coefficients_are_ea_over_l_cubed(doc: dict[str, Any], monkeypat
     assert ex.c_groups is not None  # 120 members, at most 18 groups: grouped
     first, group = ex.c_groups
     assert first.size < model.n_members // 4
+    assert group.size == model.n_members
+    assert int(group.max()) + 1 == first.size
     # the same integers as without the groups
     monkeypatch.setattr(exact_model_mod, "_pair_groups", lambda *_a: None)
     plain = exact_model(model, P, False)
