@@ -284,7 +284,8 @@ def _release(handle: _PardisoHandle) -> None:
 #: blocks from 2 columns on would be faster (the certificate stage 1.26-1.30 s -> 0.82-0.86 s),
 #: but they raised the whole check's peak memory from 1,220-1,230 MiB to 1,280 MiB (2 runs of 3), 1.50x the
 #: floor's, the limit of the target; so the blocks start at 8 (an earlier machine, 2D grid of 10⁶
-#: members, no branch: one column 0.18 s, a block of 4 1.24 s, of 8 1.28 s).
+#: members, no branch: one column 0.18 s, a block of 4 1.24 s, of 8 1.28 s).  Chains of dependent solves that
+#: do not depend on each other share their calls through solve_in_lockstep, which always sends one block.
 _BLOCK_RHS = 8
 
 
