@@ -7,7 +7,6 @@ Nothing here reads global state; every function is a pure function of its argume
 from __future__ import annotations
 
 import math
-
 from collections.abc import Callable
 from dataclasses import dataclass, replace
 from typing import Any, TypeVar
