@@ -90,7 +90,7 @@ def local_deficiencies(model: Model, cons: Constraints) -> tuple[list[Local], li
     deg = np.bincount(model.conn.ravel(), minlength=n).astype(np.int64) if model.n_members else np.zeros(n, np.int64)
     # G = Σ n nᵀ over each joint's members (start ends, then end ends) and reactions, in that order: one
     # bincount per entry over the concatenated indices adds in input order, the same float additions as
-    # np.add.at over the three in turn (so the same G), and about 8x faster at 4.8·10⁵ members
+    # np.add.at over the three in turn (so the same G); local_deficiencies 0.12 -> 0.08 s at 4.8·10⁵ members
     u = model.directions() if model.n_members else np.zeros((0, d))
     idx = np.concatenate([model.conn[:, 0], model.conn[:, 1], cons.node]).astype(np.int64)
     dirs = np.concatenate([u, u, cons.dirs.reshape(-1, d)])
