@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Iterator, Mapping
 from dataclasses import replace
 from typing import Any
 
@@ -26,9 +26,40 @@ from .supports import _supports
 from .values import _floats, _one_float, _show, _texts
 
 
+class _RangeIndex(Mapping[str, int]):
+    """The index of ids written as the integers 0, 1, 2, ... in order, without a dict of them.
+
+    A key is found exactly when it is the decimal text of one of those integers (``str(i)``: ASCII
+    digits, no sign, no leading zero), as it is in the dict ``{str(i): i}`` it stands for.
+    """
+
+    def __init__(self, ids: list[str]) -> None:
+        self.ids = ids
+
+    def __getitem__(self, key: str) -> int:
+        if type(key) is str and key.isascii() and key.isdigit() and (key[0] != "0" or key == "0"):
+            i = int(key)
+            if i < len(self.ids):
+                return i
+        raise KeyError(key)
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self.ids)
+
+    def __len__(self) -> int:
+        return len(self.ids)
+
+
 def _index_ids(items: list[dict[str, Any]], key: str, what: str, base: Path_, probs: _Problems, cols: _Columns):
-    """Ids as strings and the index of each (first occurrence wins); duplicates reported."""
-    ids = list(map(str, cols.column(items, key)))
+    """Ids as strings and the index of each (first occurrence wins); duplicates reported.
+
+    Ids written as the integers 0, 1, 2, ... in order (as programs write them) are distinct: their index is a
+    :class:`_RangeIndex` (a dict of 10^6 strings costs a good part of a second).
+    """
+    written = cols.column(items, key)
+    ids = list(map(str, written))
+    if written and type(written[0]) is int and written == list(range(len(written))):
+        return ids, _RangeIndex(ids)
     index = dict(zip(ids, range(len(ids)), strict=True))
     if len(index) != len(ids):
         first: dict[str, int] = {}
@@ -65,10 +96,10 @@ def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs
             probs.add(("sections", name, "A"), f"A must be positive, got {_show(sec['A'])}")
 
     n = len(members)
+    refs_of = {ref_key: _given(members, ref_key, cols) for ref_key in ("material", "section")}
     values: dict[str, list[Any]] = {}
     inline: dict[str, list[int]] = {}
     has_alpha = [True] * n
-    refs_of = {ref_key: _given(members, ref_key, cols) for ref_key in ("material", "section")}
     for ref_key, table in (("material", materials), ("section", sections)):
         refs = refs_of[ref_key]
         if not set(refs) <= set(table) | {None}:
