@@ -14,9 +14,11 @@ from __future__ import annotations
 import json
 from typing import Any
 
+import numpy as np
 import pytest
-from test_exchange_fastpath_equivalence import _assert_equivalent
+from test_exchange_fastpath_equivalence import _assert_equivalent, _assert_same
 
+from audit.exchange import build, parse_model
 from audit.exchange.build import _RangeIndex
 
 NO_ALPHA = "member '0' has a temperature change but no alpha (give 'alpha' on the member or its material)"
@@ -110,3 +112,66 @@ def test_string_reference_to_an_integer_id() -> None:
     model = _assert_equivalent(json.dumps(doc).encode())[1]
     assert model.load_cases[0].loads[3].tolist() == [1.0, 0.0]
     assert model.load_cases[0].temperature.tolist() == [0.0, 0.0, 5.0, 0.0]
+
+
+def _general(doc: dict[str, Any], monkeypatch: pytest.MonkeyPatch) -> Any:
+    with monkeypatch.context() as m:
+        m.setattr(build, "_by_reference", lambda *_args: None)
+        try:
+            return parse_model(json.dumps(doc).encode())
+        except Exception as exc:
+            return [(p.path, p.message) for p in getattr(exc, "problems", [])]
+
+
+def _varied(doc: dict[str, Any]) -> dict[str, Any]:
+    for i, mem in enumerate(doc["members"]):
+        mem["material"], mem["section"] = ("s", "a") if i % 3 else ("t", "b")
+    return doc
+
+
+def test_properties_by_reference_equal_the_general_path(monkeypatch: pytest.MonkeyPatch) -> None:
+    doc = _varied(_doc(list(range(5)), list(range(7))))
+    doc["load_cases"][0]["temperature_changes"] = [{"member": 1, "delta": 5}]
+    taken: list[Any] = []
+    by_reference = build._by_reference
+    monkeypatch.setattr(build, "_by_reference", lambda *args: taken.append(by_reference(*args)) or taken[-1])
+    model = _assert_equivalent(json.dumps(doc).encode())[1]
+    assert taken[0] is not None  # the shortcut was taken, so the comparison means something
+    _assert_same(model, _general(doc, monkeypatch))
+    assert model.E.tolist() == [7e7, 2.1e8, 2.1e8] * 2 + [7e7]
+    assert model.A_text == ("25", "0.004", "0.004") * 2 + ("25",)
+    assert model.alpha_text == ("0", "1.2e-05", "1.2e-05") * 2 + ("0",)
+    assert np.array_equal(model.alpha, [0, 1.2e-5, 1.2e-5] * 2 + [0])
+
+
+@pytest.mark.parametrize(
+    ("change", "expected"),
+    [
+        ("no material", [("members[2]", "no E: give 'E' or a 'material'")]),
+        ("unknown section", [("members[2].section", "unknown section 'zz'")]),
+        ("alpha missing", [("load_cases[0].temperature_changes[0].member", NO_ALPHA)]),
+        ("inline E", []),
+        ("E too large", [("materials.t.E", "number 1e400 is too large for a 64-bit float")]),
+    ],
+)
+def test_properties_by_reference_problems(change: str, expected: list[Any], monkeypatch: pytest.MonkeyPatch) -> None:
+    doc = _varied(_doc(list(range(5)), list(range(5))))
+    if change == "no material":
+        del doc["members"][2]["material"]
+    elif change == "unknown section":
+        doc["members"][2]["section"] = "zz"
+    elif change == "alpha missing":
+        doc["load_cases"][0]["temperature_changes"] = [{"member": 0, "delta": 5}]
+    elif change == "inline E":
+        doc["members"][2]["E"] = 5
+    raw = json.dumps(doc).replace('"E": 70000000.0', '"E": 1e400').encode() if change == "E too large" else None
+    outcome = _assert_equivalent(raw or json.dumps(doc).encode())
+    general = _general(doc, monkeypatch) if raw is None else None
+    if expected:
+        assert outcome[0] == "problems"
+        assert [(p, m) for p, m, _item in outcome[1]] == expected
+        if general is not None:
+            assert general == expected
+    else:
+        _assert_same(outcome[1], general)
+        assert outcome[1].E.tolist() == [7e7, 2.1e8, 5.0, 7e7, 2.1e8]

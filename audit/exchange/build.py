@@ -23,7 +23,7 @@ from .cases import _case_ids, _combinations, _load_case
 from .problems import Path_, _path_str, _Problems
 from .reported import _Frame, _results, _stiffness
 from .supports import _supports
-from .values import _floats, _one_float, _show, _texts
+from .values import _float, _floats, _one_float, _show, _texts
 
 
 class _RangeIndex(Mapping[str, int]):
@@ -97,6 +97,10 @@ def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs
 
     n = len(members)
     refs_of = {ref_key: _given(members, ref_key, cols) for ref_key in ("material", "section")}
+    if not any(cols.any_has(members, key) for key in ("E", "A", "alpha")):
+        found = _by_reference(refs_of["material"], materials, refs_of["section"], sections)
+        if found is not None:
+            return found
     values: dict[str, list[Any]] = {}
     inline: dict[str, list[int]] = {}
     has_alpha = [True] * n
@@ -143,6 +147,34 @@ def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs
             for i in own_idx[~(sub > 0) & np.isfinite(sub)].tolist():
                 probs.add(("members", i, key), f"{key} must be positive, got {_show(vals[i])}")
     texts = {key: tuple(_texts(values[key])) for key in values}
+    return arrays, texts, has_alpha
+
+
+def _by_reference(
+    materials_of: list[Any], materials: dict[str, dict[str, Any]], sections_of: list[Any], sections: dict[str, Any]
+):
+    """What :func:`_member_properties` gives when no member has a value of its own: each value looked up by reference.
+
+    Every member must name a known material and section (else None: the caller then reports what is
+    missing, member by member).  Each distinct value is converted once, and the members take theirs by the
+    code of their material or section: a few passes over the members instead of several per key.
+    """
+    arrays: dict[str, np.ndarray] = {}
+    texts: dict[str, tuple[str, ...]] = {}
+    has_alpha: list[bool] = []
+    for refs, table, keys in ((materials_of, materials, ("E", "alpha")), (sections_of, sections, ("A",))):
+        code = {name: c for c, name in enumerate(table)}
+        try:
+            codes = np.fromiter(map(code.__getitem__, refs), dtype=np.int64, count=len(refs))
+        except (KeyError, TypeError):  # no reference (None) or an unknown one
+            return None
+        for key in keys:
+            given = [entry.get(key) for entry in table.values()]
+            raw = [0 if v is None else v for v in given]  # only alpha may be absent: 0, as when not given
+            arrays[key] = np.array([_float(v) for v in raw], dtype=np.float64)[codes]
+            texts[key] = tuple(np.array(_texts(raw), dtype=object)[codes].tolist())
+            if key == "alpha":
+                has_alpha = np.array([v is not None for v in given], dtype=bool)[codes].tolist()
     return arrays, texts, has_alpha
 
 
