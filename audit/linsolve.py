@@ -45,6 +45,7 @@ import glob
 import os
 import sys
 import weakref
+from collections.abc import Generator
 from dataclasses import dataclass
 from typing import Any, Protocol
 
@@ -79,8 +80,14 @@ class Factor(Protocol):
     backend: str  #: "pardiso" or "splu"
     n: int  #: order of the matrix
     note: str  #: why a preferred backend was not used ("" when it was)
+    #: Ritz estimates (λ_min, λ_max) of the factorised matrix, when :func:`audit.solve.factorize_system` made them
+    ritz_estimates: tuple[float, float] | None
 
     def solve(self, b: FloatArray) -> FloatArray: ...
+
+    def solve_block(self, b: FloatArray) -> FloatArray:
+        """Like :meth:`solve`, every column in one call of the backend (the caller gathered them on purpose)."""
+        ...
 
 
 # --------------------------------------------------------------------- splu
@@ -92,6 +99,7 @@ class SpluFactor:
     n: int
     backend: str = "splu"
     note: str = ""
+    ritz_estimates: tuple[float, float] | None = None
 
     def solve(self, b: FloatArray) -> FloatArray:
         b = np.asarray(b, dtype=np.float64)
@@ -100,6 +108,8 @@ class SpluFactor:
             return np.zeros(b.shape)
         assert self.lu is not None
         return np.asarray(self.lu.solve(b))
+
+    solve_block = solve  # SuperLU solves a block of columns in one call anyway
 
     def pivots(self) -> FloatArray:
         """|U_ii| of the factor (in the permuted order)."""
@@ -274,7 +284,8 @@ def _release(handle: _PardisoHandle) -> None:
 #: blocks from 2 columns on would be faster (the certificate stage 1.26-1.30 s -> 0.82-0.86 s),
 #: but they raised the whole check's peak memory from 1,220-1,230 MiB to 1,280 MiB (2 runs of 3), 1.50x the
 #: floor's, the limit of the target; so the blocks start at 8 (an earlier machine, 2D grid of 10⁶
-#: members, no branch: one column 0.18 s, a block of 4 1.24 s, of 8 1.28 s).
+#: members, no branch: one column 0.18 s, a block of 4 1.24 s, of 8 1.28 s).  Chains of dependent solves that
+#: do not depend on each other share their calls through solve_in_lockstep, which always sends one block.
 _BLOCK_RHS = 8
 
 
@@ -287,6 +298,7 @@ class PardisoFactor:
 
     backend = "pardiso"
     note = ""
+    ritz_estimates: tuple[float, float] | None = None
 
     def __init__(self, K: sp.csr_matrix) -> None:
         self.n = int(K.shape[0])
@@ -330,6 +342,16 @@ class PardisoFactor:
             X = xb
         return X.reshape(b.shape) if b.ndim == 2 else X[:, 0]
 
+    def solve_block(self, b: FloatArray) -> FloatArray:
+        """Every column in one PARDISO call, however few (:func:`solve_in_lockstep` gathers them)."""
+        b = np.asarray(b, dtype=np.float64)
+        _check_rhs(b, self.n)
+        if b.size == 0:
+            return np.zeros(b.shape)
+        X = self._h.call(33, np.asfortranarray(b.reshape(self.n, -1)))
+        assert X is not None
+        return X.reshape(b.shape) if b.ndim == 2 else X[:, 0]
+
 
 # ------------------------------------------------------------------ cholmod
 class CholmodFactor:
@@ -337,6 +359,7 @@ class CholmodFactor:
 
     backend = "cholmod"
     note = ""
+    ritz_estimates: tuple[float, float] | None = None
 
     def __init__(self, K: sp.csr_matrix) -> None:
         import cvxopt
@@ -362,6 +385,54 @@ class CholmodFactor:
         x = self._cvxopt.matrix(np.asfortranarray(b.reshape(self.n, -1)))
         self._cholmod.solve(self._F, x)
         return np.array(x).reshape(b.shape)
+
+    solve_block = solve  # CHOLMOD solves a block of columns in one call anyway
+
+
+# --------------------------------------------------------------- lockstep
+#: a chain of dependent solves: yields a block of right-hand sides (n,) or (n, k), is sent their solution
+#: (same shape), and returns its result (``StopIteration.value``)
+SolveChain = Generator[FloatArray, FloatArray, Any]
+
+
+def solve_in_lockstep(factor: Factor, chains: list[SolveChain]) -> list[Any]:
+    """Run independent chains of solves side by side, one backend call per round for all their columns.
+
+    Each chain asks for its next solve only once it has the previous answer (an
+    iterative estimator), so chains cannot be merged into one block; but
+    chains that do not depend on each other can share each round.  With MKL's
+    reproducibility branch a PARDISO call of one column costs about as much as
+    one of four (2D grid of 480,800 members, 2 cores, Intel Xeon: one column
+    0.16 s, two 0.21 s, four 0.17-0.27 s, eight 0.28-0.34 s; ``_BLOCK_RHS``),
+    so a round of several chains costs little more than one chain's step.
+    Returns each chain's result, in the order given.
+    """
+    solve = getattr(factor, "solve_block", factor.solve)
+    results: list[Any] = [None] * len(chains)
+    pending: dict[int, np.ndarray] = {}
+
+    def advance(i: int, answer: np.ndarray | None) -> None:
+        try:
+            rhs = next(chains[i]) if answer is None else chains[i].send(answer)
+        except StopIteration as stop:
+            results[i] = stop.value
+            pending.pop(i, None)
+            return
+        pending[i] = np.asarray(rhs, dtype=np.float64)
+
+    for i in range(len(chains)):
+        advance(i, None)
+    while pending:
+        order = sorted(pending)
+        blocks = [pending[i].reshape(factor.n, -1) for i in order]
+        X = np.asarray(solve(blocks[0] if len(blocks) == 1 else np.hstack(blocks))).reshape(factor.n, -1)
+        start = 0
+        for i, blk in zip(order, blocks, strict=True):
+            k = blk.shape[1]
+            answer = X[:, start : start + k]
+            start += k
+            advance(i, answer.reshape(pending[i].shape))
+    return results
 
 
 # ------------------------------------------------------------------- select
@@ -439,4 +510,5 @@ __all__ = [
     "SpluFactor",
     "available_backends",
     "factorize",
+    "solve_in_lockstep",
 ]

@@ -22,6 +22,7 @@ from .eigen_bound import (
     gamma,
     inf_norm_upper,
     lower_eigen_bound,
+    ritz_chain,
     ritz_extremes,
 )
 from .policy import (
@@ -54,5 +55,6 @@ __all__ = [
     "gamma",
     "inf_norm_upper",
     "lower_eigen_bound",
+    "ritz_chain",
     "ritz_extremes",
 ]

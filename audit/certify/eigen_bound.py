@@ -38,6 +38,7 @@ safety factor :func:`round_up`.  What a certificate proves: the
 
 from __future__ import annotations
 
+from collections.abc import Generator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -274,14 +275,33 @@ def ritz_extremes(
     Ritz values lie inside [λ_min, λ_max] (Courant–Fischer), so the first is
     an upper estimate of λ_min: a safe starting point for the shift of
     :func:`lower_eigen_bound`.  Higham 2002, §15 uses the same idea for
-    condition estimation; this is an estimate, not a bound.
+    condition estimation; this is an estimate, not a bound.  The iteration
+    itself is :func:`ritz_chain`; this runs it alone with ``solve_a``.
+    """
+    chain = ritz_chain(apply_a, n, block=block, steps=steps, seed=seed)
+    try:
+        rhs = next(chain)
+        while True:
+            rhs = chain.send(np.asarray(solve_a(rhs)).reshape(rhs.shape))  # type: ignore[operator]
+    except StopIteration as stop:
+        lo, hi = stop.value
+    return lo, hi
+
+
+def ritz_chain(
+    apply_a: object, n: int, *, block: int = 4, steps: int = 4, seed: int = 0
+) -> Generator[FloatArray, FloatArray, tuple[float, float]]:
+    """:func:`ritz_extremes` as a chain of solves: yields each block to solve with A, is sent A⁻¹ of it.
+
+    So that it can share its solves with other chains (``audit.linsolve.solve_in_lockstep``).
     """
     rng = np.random.default_rng(seed)
     k = min(block, n)
     X = rng.standard_normal((n, k))
     Y = rng.standard_normal((n, k))
     for _ in range(steps):
-        X, _r = np.linalg.qr(np.asarray(solve_a(X)).reshape(n, k))  # type: ignore[operator]
+        solved = yield X
+        X, _r = np.linalg.qr(np.asarray(solved).reshape(n, k))
         Y, _r = np.linalg.qr(np.asarray(apply_a(Y)).reshape(n, k))  # type: ignore[operator]
     AX = np.asarray(apply_a(X)).reshape(n, k)  # type: ignore[operator]
     AY = np.asarray(apply_a(Y)).reshape(n, k)  # type: ignore[operator]

@@ -156,8 +156,13 @@ def certify_restrained(
         budget=budget,
         free_nonzeros=free_nonzeros,
     )
-    lam_est, lam_max_est = ritz_extremes(
-        lambda x: Kr @ x, lambda x: np.asarray(factor.solve(x)).reshape(x.shape), n, block=2, steps=3
+    known = getattr(factor, "ritz_estimates", None)  # made beside the condition estimate (audit.solve)
+    lam_est, lam_max_est = (
+        known
+        if known is not None
+        else ritz_extremes(
+            lambda x: Kr @ x, lambda x: np.asarray(factor.solve(x)).reshape(x.shape), n, block=2, steps=3
+        )
     )
     if plan.run:
         # a few block iterations suffice: the shift only needs λ_min within a factor ~2 (a miss costs a retry)

@@ -6,6 +6,7 @@ Nothing here reads global state; every function is a pure function of its argume
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass, replace
 from typing import Any, TypeVar
@@ -231,9 +232,12 @@ def scale_of(*arrays: FloatArray) -> float:
     best = 0.0
     for a in arrays:
         v = np.abs(np.asarray(a, dtype=np.float64))
-        v = v[np.isfinite(v)]
-        if v.size:
-            best = max(best, float(v.max()))
+        if not v.size:
+            continue
+        top = float(v.max())
+        if not math.isfinite(top):  # an inf or NaN among them (rare): the largest of the finite ones
+            top = float(np.max(v, where=np.isfinite(v), initial=0.0))
+        best = max(best, top)
     return best
 
 
