@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Iterator, Mapping
 from dataclasses import replace
 from typing import Any
 
@@ -23,12 +23,43 @@ from .cases import _case_ids, _combinations, _load_case
 from .problems import Path_, _path_str, _Problems
 from .reported import _Frame, _results, _stiffness
 from .supports import _supports
-from .values import _floats, _one_float, _show, _texts
+from .values import _float, _floats, _one_float, _show, _texts
+
+
+class _RangeIndex(Mapping[str, int]):
+    """The index of ids written as the integers 0, 1, 2, ... in order, without a dict of them.
+
+    A key is found exactly when it is the decimal text of one of those integers (``str(i)``: ASCII
+    digits, no sign, no leading zero), as it is in the dict ``{str(i): i}`` it stands for.
+    """
+
+    def __init__(self, ids: list[str]) -> None:
+        self.ids = ids
+
+    def __getitem__(self, key: str) -> int:
+        if type(key) is str and key.isascii() and key.isdigit() and (key[0] != "0" or key == "0"):
+            i = int(key)
+            if i < len(self.ids):
+                return i
+        raise KeyError(key)
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self.ids)
+
+    def __len__(self) -> int:
+        return len(self.ids)
 
 
 def _index_ids(items: list[dict[str, Any]], key: str, what: str, base: Path_, probs: _Problems, cols: _Columns):
-    """Ids as strings and the index of each (first occurrence wins); duplicates reported."""
-    ids = list(map(str, cols.column(items, key)))
+    """Ids as strings and the index of each (first occurrence wins); duplicates reported.
+
+    Ids written as the integers 0, 1, 2, ... in order (as programs write them) are distinct: their index is a
+    :class:`_RangeIndex` (a dict of 10^6 strings costs a good part of a second).
+    """
+    written = cols.column(items, key)
+    ids = list(map(str, written))
+    if written and type(written[0]) is int and written == list(range(len(written))):
+        return ids, _RangeIndex(ids)
     index = dict(zip(ids, range(len(ids)), strict=True))
     if len(index) != len(ids):
         first: dict[str, int] = {}
@@ -65,10 +96,14 @@ def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs
             probs.add(("sections", name, "A"), f"A must be positive, got {_show(sec['A'])}")
 
     n = len(members)
+    refs_of = {ref_key: _given(members, ref_key, cols) for ref_key in ("material", "section")}
+    if not any(cols.any_has(members, key) for key in ("E", "A", "alpha")):
+        found = _by_reference(refs_of["material"], materials, refs_of["section"], sections)
+        if found is not None:
+            return found
     values: dict[str, list[Any]] = {}
     inline: dict[str, list[int]] = {}
     has_alpha = [True] * n
-    refs_of = {ref_key: _given(members, ref_key, cols) for ref_key in ("material", "section")}
     for ref_key, table in (("material", materials), ("section", sections)):
         refs = refs_of[ref_key]
         if not set(refs) <= set(table) | {None}:
@@ -112,6 +147,34 @@ def _member_properties(doc: dict[str, Any], members: list[dict[str, Any]], probs
             for i in own_idx[~(sub > 0) & np.isfinite(sub)].tolist():
                 probs.add(("members", i, key), f"{key} must be positive, got {_show(vals[i])}")
     texts = {key: tuple(_texts(values[key])) for key in values}
+    return arrays, texts, has_alpha
+
+
+def _by_reference(
+    materials_of: list[Any], materials: dict[str, dict[str, Any]], sections_of: list[Any], sections: dict[str, Any]
+):
+    """What :func:`_member_properties` gives when no member has a value of its own: each value looked up by reference.
+
+    Every member must name a known material and section (else None: the caller then reports what is
+    missing, member by member).  Each distinct value is converted once, and the members take theirs by the
+    code of their material or section: a few passes over the members instead of several per key.
+    """
+    arrays: dict[str, np.ndarray] = {}
+    texts: dict[str, tuple[str, ...]] = {}
+    has_alpha: list[bool] = []
+    for refs, table, keys in ((materials_of, materials, ("E", "alpha")), (sections_of, sections, ("A",))):
+        code = {name: c for c, name in enumerate(table)}
+        try:
+            codes = np.fromiter(map(code.__getitem__, refs), dtype=np.int64, count=len(refs))
+        except (KeyError, TypeError):  # no reference (None) or an unknown one
+            return None
+        for key in keys:
+            given = [entry.get(key) for entry in table.values()]
+            raw = [0 if v is None else v for v in given]  # only alpha may be absent: 0, as when not given
+            arrays[key] = np.array([_float(v) for v in raw], dtype=np.float64)[codes]
+            texts[key] = tuple(np.array(_texts(raw), dtype=object)[codes].tolist())
+            if key == "alpha":
+                has_alpha = np.array([v is not None for v in given], dtype=bool)[codes].tolist()
     return arrays, texts, has_alpha
 
 

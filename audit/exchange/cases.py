@@ -8,6 +8,7 @@ load cases only, never other combinations.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
@@ -29,8 +30,8 @@ def _load_case(
     k: int,
     dim: int,
     units: Units,
-    node_index: dict[str, int],
-    member_index: dict[str, int],
+    node_index: Mapping[str, int],
+    member_index: Mapping[str, int],
     has_alpha: list[bool],
     sup: _Supports,
     n_nodes: int,

@@ -8,6 +8,7 @@ against a :class:`_Frame`: what they need to know of the model they belong to.
 from __future__ import annotations
 
 import itertools
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -26,8 +27,8 @@ class _Frame:
 
     dim: int
     units: Units
-    node_index: dict[str, int]
-    member_index: dict[str, int]
+    node_index: Mapping[str, int]
+    member_index: Mapping[str, int]
     case_ids: frozenset[str]
     n_nodes: int
     n_members: int
@@ -168,7 +169,7 @@ def _numbers(table: ScannedMap) -> tuple[np.ndarray, np.ndarray]:
     return found
 
 
-def _rows(table: ScannedMap, index: dict[str, int], count: int) -> np.ndarray:
+def _rows(table: ScannedMap, index: Mapping[str, int], count: int) -> np.ndarray:
     """The index of each name of a scanned map (ScanRefusedError if one is unknown or given twice)."""
     ids = list(index)
     names = table.names

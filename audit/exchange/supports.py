@@ -9,6 +9,7 @@ linearly independent.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -57,7 +58,7 @@ class _Supports:
     entry_of_node: dict[int, int]  #: node index -> support entry index
 
 
-def _supports(doc: dict[str, Any], dim: int, node_index: dict[str, int], probs: _Problems) -> _Supports:
+def _supports(doc: dict[str, Any], dim: int, node_index: Mapping[str, int], probs: _Problems) -> _Supports:
     s = _Supports([], [], [], [], [], [], [], [], [], {}, {})
     for i, sup in enumerate(doc.get("supports", [])):
         p: Path_ = ("supports", i)
